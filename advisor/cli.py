@@ -1,0 +1,163 @@
+"""Command line: parse, call the library, render, and turn library errors into exit codes.
+
+Exit codes: 0 success; 2 usage error (Typer); 3 input not found; 4 input unusable; 5 setting
+impossible; 6 database locked; 7 output refused or failed; 8 invalid layout; 1 unexpected
+internal error; 130 interrupted.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+from contextlib import contextmanager
+from pathlib import Path
+from typing import Annotated, Optional
+
+import typer
+from rich.console import Console
+from rich.progress import BarColumn, Progress, SpinnerColumn, TextColumn, TimeElapsedColumn
+
+from .advise import PageSettings, advise, capacities, export_paths
+from .demo import DEMO_KEY, DEMO_LOG, DEMO_TABLE, build_demo
+from .errors import AdvisorError
+from .export import check_destination, check_target, write_layout
+from .serialize import run_dict
+from .report import render_run
+from .workload import load_workload
+
+app = typer.Typer(
+    add_completion=False,
+    no_args_is_help=True,
+    help="Page-layout advice for read-mostly indexes under skewed lookups.",
+)
+
+
+def _fail(message: str, code: int) -> None:
+    Console(stderr=True, highlight=False).print(f"advisor: error: {message}", markup=False, soft_wrap=True)
+    raise typer.Exit(code)
+
+
+@contextmanager
+def _guard():
+    """One line and a distinct exit code for every failure; never a traceback."""
+    try:
+        yield
+    except AdvisorError as e:
+        _fail(str(e), e.exit_code)
+    except KeyboardInterrupt:
+        _fail("interrupted; no output file was left behind", 130)
+    except typer.Exit:
+        raise
+    except MemoryError:
+        _fail("out of memory; try fewer page sizes or a smaller table", 1)
+    except Exception as e:  # noqa: BLE001 - the promise is no traceback
+        _fail(f"internal error ({type(e).__name__}): {e}", 1)
+
+
+def _progress(enabled: bool) -> Progress:
+    return Progress(
+        SpinnerColumn(), TextColumn("{task.description}"), BarColumn(), TimeElapsedColumn(),
+        console=Console(stderr=True), transient=True, disable=not enabled,
+    )  # fmt: skip
+
+
+TableOpt = Annotated[str, typer.Option("--table", help="Table holding the indexed key column.")]
+KeyOpt = Annotated[str, typer.Option("--key", help="The indexed key column.")]
+LogOpt = Annotated[Optional[str], typer.Option("--log", help="Lookup log: a table in the database, or a .parquet/.csv file.")]
+PageSizeOpt = Annotated[Optional[list[int]], typer.Option("--page-size", help="Page size in bytes (repeatable; default 4096, 8192, 16384).")]
+KppOpt = Annotated[Optional[list[int]], typer.Option("--keys-per-page", help="Capacity c in keys per page, instead of a page size (repeatable).")]
+JsonOpt = Annotated[bool, typer.Option("--json", help="Print one JSON object on stdout instead of the report.")]
+ExportOpt = Annotated[Optional[Path], typer.Option("--export", help="Write the recommended pages and their keys (.csv, .json, .parquet, .duckdb).")]
+ExportForOpt = Annotated[Optional[int], typer.Option("--export-for", help="Export only the plan for this page size (or keys per page).")]
+ForceOpt = Annotated[bool, typer.Option("--force", help="Replace an existing export file.")]
+
+
+def _run(database, table, key, log, settings, as_json, export, export_for, force, log_column=None, count_column=None):
+    stdout = Console(highlight=False)
+    if export is not None:
+        check_destination(export)
+    with load_workload(database, table, key, log, log_column, count_column) as wl:
+        targets = capacities(settings, wl.key_bytes)
+        seen, unique = set(), []
+        for c, g in targets:
+            tag = (c, g.page_size if g else None)
+            if tag not in seen:
+                seen.add(tag)
+                unique.append((c, g))
+        with _progress(not as_json and sys.stderr.isatty()) as bar:
+            task = bar.add_task("planning", total=len(unique))
+
+            def on_plan(i: int, step: str) -> None:
+                bar.update(task, completed=i, description=f"c={unique[i][0]}: {step}")
+
+            plans = advise(wl.hist, unique, on_plan=on_plan)
+            bar.update(task, completed=len(unique))
+        written: list[str] = []
+        if export is not None:
+            targets_out = export_paths(export, plans, export_for)
+            for _, path in targets_out:
+                check_target(path, force)
+            for plan, path in targets_out:
+                written.append(str(write_layout(wl, plan.recommended, path, replace=force)))
+        inputs = {
+            "database": str(database), "table": wl.table, "key": wl.key, "key_type": wl.key_type,
+            "key_bytes": round(wl.key_bytes, 2), "log": wl.log or "(none)", **wl.info,
+        }  # fmt: skip
+        run = run_dict(wl.hist, plans, inputs, written)
+    if as_json:
+        print(json.dumps(run, indent=2, default=str))
+    else:
+        stdout.print(render_run(run))
+
+
+@app.command("plan")
+def plan_cmd(
+    database: Annotated[Path, typer.Argument(help="DuckDB database file (opened read-only).")],
+    table: TableOpt,
+    key: KeyOpt,
+    log: LogOpt = None,
+    log_column: Annotated[Optional[str], typer.Option("--log-column", help="Looked-up value column in the log (default: the key's name).")] = None,
+    count_column: Annotated[Optional[str], typer.Option("--count-column", help="Log column with a lookup count per row (pre-aggregated log).")] = None,
+    page_size: PageSizeOpt = None,
+    keys_per_page: KppOpt = None,
+    page_header: Annotated[int, typer.Option("--page-header", help="Bytes per page kept for the header.")] = PageSettings.page_header,
+    record_pointer: Annotated[int, typer.Option("--record-pointer", help="Bytes per record pointer.")] = PageSettings.record_pointer,
+    child_pointer: Annotated[int, typer.Option("--child-pointer", help="Bytes per child-page pointer.")] = PageSettings.child_pointer,
+    key_bytes: Annotated[Optional[float], typer.Option("--key-bytes", help="Bytes per key (default: from the column type or measured).")] = None,
+    as_json: JsonOpt = False,
+    export: ExportOpt = None,
+    export_for: ExportForOpt = None,
+    force: ForceOpt = False,
+) -> None:
+    """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
+    with _guard():
+        settings = PageSettings(list(page_size or []), list(keys_per_page or []), page_header, record_pointer,
+                                child_pointer, key_bytes)  # fmt: skip
+        _run(database, table, key, log, settings, as_json, export, export_for, force, log_column, count_column)
+
+
+@app.command("demo")
+def demo_cmd(
+    directory: Annotated[Optional[Path], typer.Option("--dir", help="Where to build the demo database (default: the user cache).")] = None,
+    seed: Annotated[int, typer.Option("--seed", help="Seed of the generated workload.")] = 7,
+    keys: Annotated[int, typer.Option("--keys", help="Number of catalogue keys.", min=1, max=2_000_000)] = 200_000,
+    lookups: Annotated[int, typer.Option("--lookups", help="Number of logged lookups.", min=0, max=20_000_000)] = 1_000_000,
+    page_size: PageSizeOpt = None,
+    keys_per_page: KppOpt = None,
+    as_json: JsonOpt = False,
+    export: ExportOpt = None,
+    force: ForceOpt = False,
+) -> None:
+    """Build the invented demo catalogue (once per seed) and print the full report on it."""
+    with _guard():
+        db = build_demo(directory, seed=seed, keys=keys, lookups=lookups)
+        settings = PageSettings(list(page_size or []), list(keys_per_page or []))
+        _run(db, DEMO_TABLE, DEMO_KEY, DEMO_LOG, settings, as_json, export, None, force)
+
+
+def main() -> None:  # pragma: no cover - console script entry
+    app()
+
+
+if __name__ == "__main__":  # pragma: no cover
+    main()

@@ -1,0 +1,91 @@
+"""The key-access histogram: Knuth's hit weights p and miss (gap) weights q.
+
+Keys are identified by their rank 0..n-1 in the key column's own sort order (DuckDB's),
+so the numeric core never sees key values. Gap g (0..n) is the open interval before
+key 0 (g = 0), between keys g-1 and g, or after key n-1 (g = n).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+
+@dataclass(frozen=True)
+class Histogram:
+    """Hit weights ``p`` (length n) and gap weights ``q`` (length n + 1).
+
+    ``null_lookups`` counts lookups of NULL, which no index page answers; they are
+    reported, never folded into p or q.
+    """
+
+    p: np.ndarray
+    q: np.ndarray
+    null_lookups: float = 0.0
+    source: dict = field(default_factory=dict)
+
+    def __post_init__(self) -> None:
+        p = np.ascontiguousarray(self.p, dtype=np.float64)
+        q = np.ascontiguousarray(self.q, dtype=np.float64)
+        if q.shape != (p.shape[0] + 1,):
+            raise ValueError(f"q must have n + 1 = {p.shape[0] + 1} entries, got {q.shape}")
+        if p.size and (not np.all(np.isfinite(p)) or p.min() < 0):
+            raise ValueError("hit weights must be finite and non-negative")
+        if not np.all(np.isfinite(q)) or q.min() < 0:
+            raise ValueError("miss weights must be finite and non-negative")
+        object.__setattr__(self, "p", p)
+        object.__setattr__(self, "q", q)
+
+    @property
+    def n(self) -> int:
+        return int(self.p.shape[0])
+
+    @property
+    def hits(self) -> float:
+        return float(self.p.sum())
+
+    @property
+    def misses(self) -> float:
+        return float(self.q.sum())
+
+    @property
+    def total(self) -> float:
+        """Weight the index answers: hits plus misses (NULL lookups excluded)."""
+        return self.hits + self.misses
+
+    def entropy_bits(self) -> float:
+        """Shannon entropy (bits) of the outcome distribution over keys and gaps."""
+        w = np.concatenate([self.p, self.q])
+        t = w.sum()
+        if t <= 0:
+            return 0.0
+        x = w[w > 0] / t
+        return float(-(x * np.log2(x)).sum())
+
+    def top_share(self, fraction: float) -> float:
+        """Share of hit weight taken by the hottest ``fraction`` of keys (at least one key)."""
+        if self.n == 0 or self.hits <= 0:
+            return 0.0
+        k = max(1, int(np.ceil(fraction * self.n)))
+        top = np.partition(self.p, self.n - k)[self.n - k :]
+        return float(top.sum() / self.hits)
+
+    def summary(self) -> dict:
+        """Figures for the report and JSON: sizes, shares and entropy."""
+        lookups = self.total + self.null_lookups
+        share = (lambda x: x / lookups) if lookups > 0 else (lambda x: 0.0)
+        return {
+            "keys": self.n,
+            "lookups": lookups,
+            "hits": self.hits,
+            "misses": self.misses,
+            "null_lookups": self.null_lookups,
+            "hit_share": share(self.hits),
+            "miss_share": share(self.misses),
+            "null_share": share(self.null_lookups),
+            "keys_never_hit": int((self.p == 0).sum()),
+            "top_1pct_share": self.top_share(0.01),
+            "top_10pct_share": self.top_share(0.10),
+            "entropy_bits": self.entropy_bits(),
+        }

@@ -1,0 +1,206 @@
+"""Page layouts, their invariant check, and THE evaluator that costs any layout.
+
+Cost model (classic B-tree: every page holds 1..c keys and their records, c + 1 child slots):
+
+* a hit on key k costs the number of pages on the root-to-page path of the page holding k
+  (the root alone costs 1);
+* a miss in gap g costs the number of pages visited until the search meets an empty child
+  slot; that page is the deeper of the pages holding the gap's two neighbouring keys (one is
+  always an ancestor of the other, or they share a page);
+* expected page reads = (sum_k p_k * depth_k + sum_g q_g * depth_g) / (sum p + sum q).
+
+A layout is stored as flat arrays, so a million-key plan costs a few megabytes:
+``page_keys[page_start[i]:page_start[i+1]]`` are the ranks of the keys on page ``i`` in
+ascending order, ``parent[i]`` / ``slot[i]`` place page ``i`` in child slot ``slot[i]`` of its
+parent (the root is page 0 with parent -1). Pages are numbered so that a parent precedes its
+children. ``structure`` names the tree family; "btree" is the classic model above, and a
+keys-in-leaves family adds its own rule to :func:`evaluate` without changing the arrays.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .errors import LayoutInvalid
+from .histogram import Histogram
+
+STRUCTURES = ("btree",)
+
+
+@dataclass(frozen=True)
+class Layout:
+    """A complete assignment of keys to pages and of pages to child slots."""
+
+    structure: str
+    n_keys: int
+    capacity: int
+    page_start: np.ndarray  # (pages + 1,) offsets into page_keys
+    page_keys: np.ndarray  # (n_keys,) key ranks, ascending within each page
+    parent: np.ndarray  # (pages,) parent page, -1 for the root
+    slot: np.ndarray  # (pages,) child slot in the parent, -1 for the root
+
+    @property
+    def pages(self) -> int:
+        return int(self.parent.shape[0])
+
+    def keys_of(self, page: int) -> np.ndarray:
+        return self.page_keys[self.page_start[page] : self.page_start[page + 1]]
+
+    def page_sizes(self) -> np.ndarray:
+        return np.diff(self.page_start)
+
+    def depths(self) -> np.ndarray:
+        """Depth of every page (root = 1), from the parent links alone."""
+        return _depths(self.parent)
+
+
+class LayoutBuilder:
+    """Collects pages top-down (parents first) and freezes them into a :class:`Layout`."""
+
+    def __init__(self, n_keys: int, capacity: int, structure: str = "btree") -> None:
+        self.n_keys, self.capacity, self.structure = n_keys, capacity, structure
+        self._keys: list[np.ndarray] = []
+        self._parent: list[int] = []
+        self._slot: list[int] = []
+
+    def add(self, keys: np.ndarray, parent: int = -1, slot: int = -1) -> int:
+        """Append a page holding ``keys`` (ranks, ascending); returns its page id."""
+        self._keys.append(np.asarray(keys, dtype=np.int64))
+        self._parent.append(parent)
+        self._slot.append(slot)
+        return len(self._parent) - 1
+
+    def __len__(self) -> int:
+        return len(self._parent)
+
+    def build(self) -> Layout:
+        sizes = np.fromiter((k.size for k in self._keys), dtype=np.int64, count=len(self._keys))
+        start = np.zeros(sizes.size + 1, dtype=np.int64)
+        np.cumsum(sizes, out=start[1:])
+        keys = np.concatenate(self._keys) if self._keys else np.zeros(0, dtype=np.int64)
+        return Layout(
+            structure=self.structure,
+            n_keys=self.n_keys,
+            capacity=self.capacity,
+            page_start=start,
+            page_keys=keys,
+            parent=np.asarray(self._parent, dtype=np.int64),
+            slot=np.asarray(self._slot, dtype=np.int64),
+        )
+
+
+def _depths(parent: np.ndarray) -> np.ndarray:
+    """Depths by repeated relaxation; one pass per level, each pass vectorised."""
+    depth = np.ones(parent.shape[0], dtype=np.int64)
+    if parent.size <= 1:
+        return depth
+    child = np.nonzero(parent >= 0)[0]
+    par = parent[child]
+    for _ in range(parent.size):
+        new = depth[par] + 1
+        if np.array_equal(new, depth[child]):
+            break
+        depth[child] = new
+    return depth
+
+
+def check_layout(layout: Layout) -> None:
+    """Raise :class:`LayoutInvalid` unless ``layout`` is a valid search tree over its keys.
+
+    Checks: every key rank 0..n-1 on exactly one page; 1..capacity keys per page, ascending;
+    page 0 is the only root and parents precede children; each child slot is used at most once
+    and lies within its parent's key count; every subtree's keys fall strictly between the two
+    parent keys around its slot. Together these make the in-order walk the sorted key order.
+    """
+    n, c, P = layout.n_keys, layout.capacity, layout.pages
+    if layout.structure not in STRUCTURES:
+        raise LayoutInvalid(f"unknown structure {layout.structure!r}")
+    if c < 1:
+        raise LayoutInvalid("capacity must be at least 1")
+    if n == 0:
+        if P != 0:
+            raise LayoutInvalid("a layout over no keys must have no pages")
+        return
+    if P == 0:
+        raise LayoutInvalid("keys but no pages")
+    keys, start, parent, slot = layout.page_keys, layout.page_start, layout.parent, layout.slot
+    if start.shape != (P + 1,) or start[0] != 0 or start[-1] != keys.size:
+        raise LayoutInvalid("page offsets do not cover the key array")
+    sizes = np.diff(start)
+    if sizes.min() < 1 or sizes.max() > c:
+        raise LayoutInvalid(f"a page holds {int(sizes.min())}..{int(sizes.max())} keys, allowed 1..{c}")
+    if keys.size != n or keys.min() < 0 or keys.max() >= n or np.bincount(keys, minlength=n).max() != 1:
+        raise LayoutInvalid("not every key appears exactly once")
+    page_of = np.repeat(np.arange(P), sizes)
+    same_page = page_of[1:] == page_of[:-1]
+    if np.any(keys[1:][same_page] <= keys[:-1][same_page]):
+        raise LayoutInvalid("keys within a page are not ascending")
+    if parent[0] != -1 or np.any(parent[1:] < 0) or np.any(parent[1:] >= np.arange(1, P)):
+        raise LayoutInvalid("page 0 must be the only root and parents must precede children")
+    if P == 1:
+        return
+    ch = np.arange(1, P)
+    par, sl = parent[1:], slot[1:]
+    if np.any(sl < 0) or np.any(sl > sizes[par]):
+        raise LayoutInvalid("a child slot lies outside its parent's key count")
+    pair = par * (c + 2) + sl
+    if np.unique(pair).size != pair.size:
+        raise LayoutInvalid("two children share one slot")
+    # subtree key ranges, bottom-up by depth
+    depth = _depths(parent)
+    lo = keys[start[:-1]].copy()
+    hi = keys[start[1:] - 1].copy()
+    for d in range(int(depth.max()), 1, -1):
+        at = np.nonzero(depth == d)[0]
+        np.minimum.at(lo, parent[at], lo[at])
+        np.maximum.at(hi, parent[at], hi[at])
+    left_bound = np.where(sl > 0, keys[start[par] + sl - 1], -1)
+    right_bound = np.where(sl < sizes[par], keys[np.minimum(start[par] + sl, n - 1)], n)
+    if np.any(lo[ch] <= left_bound) or np.any(hi[ch] >= right_bound):
+        raise LayoutInvalid("a subtree's keys fall outside its slot in the parent page")
+
+
+@dataclass(frozen=True)
+class Cost:
+    """What a layout costs on a histogram, all from :func:`evaluate`."""
+
+    expected_page_reads: float
+    pages: int
+    height: int
+    answered_at_depth: np.ndarray  # share of looked-up weight answered at depth 1, 2, ...
+    key_depth: np.ndarray  # (n,) pages read by a hit on each key
+    gap_depth: np.ndarray  # (n + 1,) pages read by a miss in each gap
+
+
+def evaluate(layout: Layout, hist: Histogram) -> Cost:
+    """Expected page reads per lookup of ``layout`` under ``hist`` (the only cost function).
+
+    Independent of any optimiser's own objective: depths come from the parent links, the page
+    of each key from the page arrays, and each gap's page from its neighbouring keys.
+    Complexity O(n + pages * height).
+    """
+    if layout.n_keys != hist.n:
+        raise LayoutInvalid(f"layout covers {layout.n_keys} keys, histogram has {hist.n}")
+    n = hist.n
+    if n == 0:
+        gd = np.zeros(1, dtype=np.int64)
+        return Cost(0.0, 0, 0, np.zeros(0), np.zeros(0, dtype=np.int64), gd)
+    depth = layout.depths()
+    key_depth = np.empty(n, dtype=np.int64)
+    key_depth[layout.page_keys] = np.repeat(depth, layout.page_sizes())
+    gap_depth = np.empty(n + 1, dtype=np.int64)
+    gap_depth[0] = key_depth[0]
+    gap_depth[n] = key_depth[n - 1]
+    gap_depth[1:n] = np.maximum(key_depth[:-1], key_depth[1:])
+    total = hist.total
+    height = int(depth.max())
+    by_depth = np.bincount(key_depth, weights=hist.p, minlength=height + 1)
+    by_depth += np.bincount(gap_depth, weights=hist.q, minlength=height + 1)
+    if total > 0:
+        reads = float((hist.p @ key_depth + hist.q @ gap_depth) / total)
+        shares = by_depth[1:] / total
+    else:
+        reads, shares = 0.0, np.zeros(height)
+    return Cost(reads, layout.pages, height, shares, key_depth, gap_depth)

@@ -1,0 +1,120 @@
+"""One plan per capacity: the recommended layout, the uniform baseline, and the bound.
+
+The planner runs the exact DP when its estimated work fits the budget, otherwise the best of
+several near-optimal candidates (the uniform split among them, so a plan is never worse than
+the baseline). Every figure comes from :func:`advisor.layout.evaluate`.
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+from typing import Callable
+
+from .geometry import Geometry
+from .histogram import Histogram
+from .layout import Cost, Layout, check_layout, evaluate
+from .optimize import balanced_layout, exact_work, lower_bounds, solve_exact, uniform_layout
+
+EXACT_MAX_OPS = 1.5e9  # about 5 s of numpy on one core of this machine kind
+EXACT_MAX_BYTES = 2.0e9
+SPREADS = (0.0, 0.02, 0.1, 0.5, 2.0)
+PROOF_TOLERANCE = 1e-9
+
+
+@dataclass(frozen=True)
+class Plan:
+    """Recommended and uniform layouts for one capacity, with their costs and a lower bound."""
+
+    keys_per_page: int
+    geometry: Geometry | None
+    recommended: Layout
+    recommended_cost: Cost
+    uniform: Layout
+    uniform_cost: Cost
+    bounds: dict
+    proven_optimal: bool
+    method: str
+    seconds: float
+    dp_objective: float | None = None
+
+    @property
+    def page_size(self) -> int | None:
+        return self.geometry.page_size if self.geometry else None
+
+    @property
+    def lower_bound(self) -> float:
+        return max(self.bounds.values()) if self.bounds else 0.0
+
+    @property
+    def saving(self) -> float:
+        """Fraction of the uniform layout's page reads the recommendation saves."""
+        u = self.uniform_cost.expected_page_reads
+        return (u - self.recommended_cost.expected_page_reads) / u if u > 0 else 0.0
+
+    @property
+    def gap(self) -> float:
+        """(recommended - lower bound) / lower bound: how far from optimal it can be at most."""
+        lb = self.lower_bound
+        return (self.recommended_cost.expected_page_reads - lb) / lb if lb > 0 else 0.0
+
+
+@dataclass
+class PlanOptions:
+    exact_max_ops: float = EXACT_MAX_OPS
+    exact_max_bytes: float = EXACT_MAX_BYTES
+    spreads: tuple = SPREADS
+    check: bool = True
+    extra: dict = field(default_factory=dict)
+
+
+def plan_capacity(
+    hist: Histogram,
+    c: int,
+    geometry: Geometry | None = None,
+    options: PlanOptions | None = None,
+    on_step: Callable[[str], None] | None = None,
+) -> Plan:
+    """Plan one capacity ``c``: exact when affordable, else near-optimal with a bound."""
+    opts = options or PlanOptions()
+    step = on_step or (lambda _s: None)
+    t0 = time.perf_counter()
+    uni = uniform_layout(hist.n, c)
+    uni_cost = evaluate(uni, hist)
+    ops, mem = exact_work(hist.n, c)
+    dp_objective = None
+    if ops <= opts.exact_max_ops and mem <= opts.exact_max_bytes:
+        step("exact")
+        res = solve_exact(hist, c)
+        best, method, proven, dp_objective = res.layout, "exact DP", True, res.objective
+        best_cost = evaluate(best, hist)
+    else:
+        best, best_cost, method = uni, uni_cost, "uniform split"
+        for s in opts.spreads:
+            step(f"balanced {s:g}")
+            cand = balanced_layout(hist, c, spread=s)
+            cost = evaluate(cand, hist)
+            if cost.expected_page_reads < best_cost.expected_page_reads:
+                best, best_cost, method = cand, cost, f"weight-balanced (spread {s:g})"
+        proven = False
+    if opts.check:
+        check_layout(best)
+        check_layout(uni)
+    step("bounds")
+    bounds = lower_bounds(hist, c)
+    lb = max(bounds.values())
+    if not proven and best_cost.expected_page_reads <= lb * (1 + PROOF_TOLERANCE):
+        proven, method = True, method + ", meets the lower bound"
+    return Plan(
+        keys_per_page=c,
+        geometry=geometry,
+        recommended=best,
+        recommended_cost=best_cost,
+        uniform=uni,
+        uniform_cost=uni_cost,
+        bounds=bounds,
+        proven_optimal=proven,
+        method=method,
+        seconds=time.perf_counter() - t0,
+        dp_objective=dp_objective,
+    )

@@ -1,0 +1,136 @@
+"""Rich renderables for a run; drawn from the same dict that ``--json`` prints.
+
+Rendering from the serialised dict keeps the terminal report and the JSON in step: anything
+the report shows, a script can read.
+"""
+
+from __future__ import annotations
+
+from rich.console import Group
+from rich.panel import Panel
+from rich.table import Table
+from rich.text import Text
+
+FOOTER = (
+    "This is advice about storage layouts, computed from the workload you supplied. "
+    "Test any layout on a copy of your data before production use."
+)
+
+
+def _pct(x: float) -> str:
+    return f"{100 * x:.1f}%"
+
+
+def _num(x: float) -> str:
+    return f"{x:,.0f}" if float(x).is_integer() else f"{x:,.2f}"
+
+
+def inputs_panel(run: dict) -> Panel:
+    t = Table.grid(padding=(0, 2))
+    t.add_column(style="bold")
+    t.add_column()
+    for k, v in run["inputs"].items():
+        if v not in (None, "", []):
+            t.add_row(k.replace("_", " "), str(v))
+    return Panel(t, title="What was read", title_align="left")
+
+
+def traffic_panel(run: dict) -> Panel:
+    h = run["histogram"]
+    t = Table.grid(padding=(0, 2))
+    t.add_column(style="bold")
+    t.add_column(justify="right")
+    t.add_row("distinct keys", f"{run['keys']:,}")
+    t.add_row("lookups", _num(run["lookups"]))
+    t.add_row("  found (hits)", f"{_num(run['hits'])}  ({_pct(h['hit_share'])})")
+    t.add_row("  not found (misses)", f"{_num(run['misses'])}  ({_pct(h['miss_share'])})")
+    t.add_row("  of NULL (no page read)", f"{_num(run['null_lookups'])}  ({_pct(h['null_share'])})")
+    t.add_row("keys never looked up", f"{h['keys_never_hit']:,}")
+    t.add_row("hits on the hottest 1% of keys", _pct(h["top_1pct_share"]))
+    t.add_row("hits on the hottest 10% of keys", _pct(h["top_10pct_share"]))
+    t.add_row("entropy of lookups", f"{h['entropy_bits']:.2f} bits")
+    return Panel(t, title="Traffic profile", title_align="left")
+
+
+def plans_table(run: dict) -> Table:
+    t = Table(title="Page reads per lookup: even split vs advised layout (c = keys per page)", title_justify="left")
+    for name in ("page bytes", "c", "even split", "advised", "saved", "lower bound", "gap", "optimum"):
+        t.add_column(name, justify="left" if name == "optimum" else "right")
+    for p in run["plans"]:
+        o, u = p["optimized"], p["uniform"]
+        t.add_row(
+            f"{p['page_size']:,}" if p["page_size"] else "-",
+            str(p["keys_per_page"]),
+            f"{u['expected_page_reads']:.3f}",
+            f"[bold]{o['expected_page_reads']:.3f}[/bold]",
+            _pct(p["saving"]),
+            f"{p['lower_bound']:.3f}",
+            _pct(p["certified_gap"]),
+            "proven" if p["proven_optimal"] else "no proof",
+        )
+    t.caption = "gap = (recommended - lower bound) / lower bound: the most the recommendation can be above optimal"
+    t.caption_justify = "left"
+    return t
+
+
+def depth_table(run: dict) -> Table:
+    """Share of lookups answered at each depth, even split vs recommended, per plan."""
+    depth = max((max(len(p["optimized"]["answered_at_depth"]), len(p["uniform"]["answered_at_depth"]))
+                 for p in run["plans"]), default=0)  # fmt: skip
+    t = Table(title="Tree shape and where lookups end (share answered at each depth), even → recommended", title_justify="left")
+    t.add_column("keys/page", justify="right")
+    t.add_column("pages", justify="right")
+    t.add_column("height", justify="right")
+    for d in range(1, depth + 1):
+        t.add_column(f"depth {d}", justify="right")
+    for p in run["plans"]:
+        o, u = p["optimized"]["answered_at_depth"], p["uniform"]["answered_at_depth"]
+        cells = []
+        for d in range(depth):
+            a = u[d] if d < len(u) else 0.0
+            b = o[d] if d < len(o) else 0.0
+            cells.append(f"{_pct(a)}→{_pct(b)}")
+        pages = f"{p['uniform']['pages']:,}→{p['optimized']['pages']:,}"
+        height = f"{p['uniform']['height']}→{p['optimized']['height']}"
+        t.add_row(str(p["keys_per_page"]), pages, height, *cells)
+    return t
+
+
+def method_notes(run: dict) -> Text:
+    lines = []
+    for p in run["plans"]:
+        g = p["geometry"]
+        cap = f"keys/page = {g and _formula(g) or str(p['keys_per_page']) + ' (given)'}"
+        lines.append(f"c={p['keys_per_page']}: {cap}; method: {p['optimized']['method']}; "
+                     f"bounds: " + ", ".join(f"{k} {v:.3f}" for k, v in p["lower_bounds"].items()))  # fmt: skip
+    lines.append("Cost model: a hit reads every page from the root to the page holding the key; a miss reads "
+                 "pages until it meets an empty child slot.")  # fmt: skip
+    return Text("\n".join(lines), style="dim")
+
+
+def _formula(g: dict) -> str:
+    return (f"floor(({g['page_size']} - {g['page_header']} header) / ({g['key_bytes']:g} key + "
+            f"{g['record_pointer']} record ptr + {g['child_pointer']} child ptr)) = {g['keys_per_page']}")  # fmt: skip
+
+
+def export_text(run: dict) -> Text | None:
+    if not run["exports"]:
+        return None
+    return Text("Separator keys written to: " + ", ".join(run["exports"]), style="green")
+
+
+def render_run(run: dict) -> Group:
+    """The whole report as one renderable."""
+    parts = [inputs_panel(run), traffic_panel(run)]
+    if run["keys"] == 0:
+        parts.append(Text("The table has no keys: there is no index to lay out."))
+    elif run["lookups"] - run["null_lookups"] <= 0:
+        parts.append(Text("The log holds no lookups of non-NULL values: nothing to optimise; "
+                          "the even split is shown as is.", style="yellow"))  # fmt: skip
+    if run["plans"]:
+        parts += [plans_table(run), depth_table(run), method_notes(run)]
+    e = export_text(run)
+    if e is not None:
+        parts.append(e)
+    parts.append(Panel(Text(FOOTER), style="yellow"))
+    return Group(*parts)

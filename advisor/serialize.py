@@ -1,0 +1,57 @@
+"""The machine-readable form of a run: one JSON-ready dict, a stable contract.
+
+Guaranteed fields: ``keys``, ``lookups``, ``hits``, ``misses`` and ``plans``, each plan with
+``keys_per_page``, ``page_size`` (null when the capacity was given directly), ``optimized`` and
+``uniform`` (each ``expected_page_reads``, ``pages``, ``height``), ``lower_bound`` and
+``proven_optimal``. Further fields may be added; none of these will change meaning.
+"""
+
+from __future__ import annotations
+
+from .histogram import Histogram
+from .layout import Cost
+from .planner import Plan
+
+SCHEMA_VERSION = 1
+
+
+def cost_dict(cost: Cost) -> dict:
+    return {
+        "expected_page_reads": float(cost.expected_page_reads),
+        "pages": int(cost.pages),
+        "height": int(cost.height),
+        "answered_at_depth": [float(x) for x in cost.answered_at_depth],
+    }
+
+
+def plan_dict(plan: Plan) -> dict:
+    return {
+        "keys_per_page": int(plan.keys_per_page),
+        "page_size": plan.page_size,
+        "geometry": plan.geometry.as_dict() if plan.geometry else None,
+        "optimized": cost_dict(plan.recommended_cost) | {"method": plan.method},
+        "uniform": cost_dict(plan.uniform_cost),
+        "saving": float(plan.saving),
+        "lower_bound": float(plan.lower_bound),
+        "lower_bounds": {k: float(v) for k, v in plan.bounds.items()},
+        "certified_gap": float(plan.gap),
+        "proven_optimal": bool(plan.proven_optimal),
+        "seconds": round(plan.seconds, 4),
+    }
+
+
+def run_dict(hist: Histogram, plans: list[Plan], inputs: dict, exports: list[str] | None = None) -> dict:
+    s = hist.summary()
+    return {
+        "schema_version": SCHEMA_VERSION,
+        "inputs": inputs,
+        "keys": int(s["keys"]),
+        "lookups": float(s["lookups"]),
+        "hits": float(s["hits"]),
+        "misses": float(s["misses"]),
+        "null_lookups": float(s["null_lookups"]),
+        "histogram": {k: v for k, v in s.items() if k not in ("keys", "lookups", "hits", "misses", "null_lookups")},
+        "plans": [plan_dict(p) for p in plans],
+        "exports": exports or [],
+        "advice": "Advice only: test any layout on a copy before production use.",
+    }

@@ -1,0 +1,243 @@
+"""Read a table's keys and a lookup log through DuckDB into a :class:`Histogram`.
+
+All counting happens in SQL: distinct keys are ranked once with ``row_number() OVER (ORDER BY
+key)`` (DuckDB's own ordering), the log is grouped by looked-up value, and an ASOF LEFT JOIN
+finds each value's predecessor key: equal means a hit on that key, otherwise a miss in the gap
+after it (no predecessor: the gap before the first key). Only O(n) aggregated arrays reach
+Python. The user's database is opened read-only; the ranked keys live in a TEMP table so that
+exports can turn ranks back into key values of the key's own type.
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import duckdb
+import numpy as np
+
+from .errors import AdvisorError, InputBusy, InputInvalid, InputNotFound
+from .geometry import LENGTH_PREFIX, fixed_key_bytes, is_variable_width
+from .histogram import Histogram
+
+KEYS_TABLE = "advisor_ranked_keys"
+LOG_FILE_SUFFIXES = (".parquet", ".csv", ".tsv", ".csv.gz", ".parquet.gz")
+
+
+def quote(name: str) -> str:
+    """Quote an SQL identifier (parameters bind values only)."""
+    return '"' + name.replace('"', '""') + '"'
+
+
+def sql_string(text: str) -> str:
+    return "'" + text.replace("'", "''") + "'"
+
+
+def open_database(path: str | os.PathLike) -> duckdb.DuckDBPyConnection:
+    """Open a DuckDB file read-only, turning DuckDB's errors into one-line library errors."""
+    path = Path(path)
+    if not path.exists():
+        raise InputNotFound(f"database file not found: {path}")
+    if path.is_dir():
+        raise InputInvalid(f"database path is a directory, not a DuckDB file: {path}")
+    try:
+        con = duckdb.connect(str(path), read_only=True)
+    except duckdb.Error as e:
+        text = str(e)
+        if "lock" in text.lower():
+            raise InputBusy(f"database {path} is locked by another process; try again when it is free") from None
+        if "not a valid DuckDB database" in text or "Unrecognized" in text or "Serialization" in text:
+            raise InputInvalid(f"not a DuckDB database file: {path}") from None
+        raise InputInvalid(f"cannot open database {path}: {_first_line(text)}") from None
+    con.execute("SET enable_progress_bar = false")
+    return con
+
+
+def _first_line(text: str) -> str:
+    return text.strip().splitlines()[0] if text.strip() else text
+
+
+@dataclass
+class Workload:
+    """An open read-only database, its ranked keys, and the histogram of the log."""
+
+    con: duckdb.DuckDBPyConnection
+    hist: Histogram
+    key_type: str
+    key_bytes: float
+    table: str
+    key: str
+    log: str
+    info: dict = field(default_factory=dict)
+
+    def close(self) -> None:
+        self.con.close()
+
+    def __enter__(self) -> "Workload":
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
+
+
+def _columns(con, relation_sql: str, what: str) -> dict[str, str]:
+    try:
+        rows = con.execute(f"DESCRIBE SELECT * FROM {relation_sql}").fetchall()
+    except duckdb.Error as e:
+        raise InputInvalid(f"cannot read {what}: {_first_line(str(e))}") from None
+    return {r[0]: str(r[1]) for r in rows}
+
+
+def _find(columns: dict[str, str], name: str, what: str) -> str:
+    """Exact column name match first, then case-insensitive (DuckDB's own rule)."""
+    if name in columns:
+        return name
+    lower = {c.lower(): c for c in columns}
+    if name.lower() in lower:
+        return lower[name.lower()]
+    raise InputNotFound(f"column {name!r} not found in {what} (columns: {', '.join(columns) or 'none'})")
+
+
+def _table_sql(con, table: str) -> str:
+    found = con.execute(
+        "SELECT table_schema, table_name FROM information_schema.tables "
+        "WHERE lower(table_name) = lower(?) ORDER BY table_name = ? DESC LIMIT 1",
+        [table, table],
+    ).fetchall()
+    if not found:
+        raise InputNotFound(f"table {table!r} not found in the database")
+    schema, name = found[0]
+    return f"{quote(schema)}.{quote(name)}"
+
+
+def _log_source(con, log: str) -> tuple[str, str]:
+    """SQL relation for the log and a human name: a file DuckDB reads, or a table."""
+    looks_like_file = log.lower().endswith(LOG_FILE_SUFFIXES) or os.sep in log or os.path.exists(log)
+    if not looks_like_file:
+        return _table_sql(con, log), f"table {log}"
+    path = Path(log)
+    if not path.exists():
+        raise InputNotFound(f"log file not found: {log}")
+    lower = log.lower()
+    if lower.endswith((".parquet", ".parquet.gz")):
+        rel = f"read_parquet({sql_string(str(path))})"
+    elif lower.endswith((".csv", ".tsv", ".csv.gz")):
+        rel = f"read_csv({sql_string(str(path))})"
+    else:
+        raise InputInvalid(f"log file {log} is neither .parquet nor .csv")
+    try:
+        con.execute(f"SELECT * FROM {rel} LIMIT 0").fetchall()
+    except duckdb.Error as e:
+        raise InputInvalid(f"log file {log} is not readable as {'Parquet' if 'parquet' in rel else 'CSV'}: {_first_line(str(e))}") from None
+    return rel, f"file {log}"
+
+
+def load_workload(
+    database: str | os.PathLike,
+    table: str,
+    key: str,
+    log: str | None,
+    log_column: str | None = None,
+    count_column: str | None = None,
+) -> Workload:
+    """Open ``database`` read-only and build the histogram of ``log`` against ``table.key``.
+
+    ``log`` is a table in the same database or a path to a Parquet/CSV file; ``None`` means no
+    log (every weight zero). ``log_column`` defaults to ``key``; ``count_column`` makes each
+    log row stand for that many lookups.
+    """
+    con = open_database(database)
+    try:
+        return _load(con, table, key, log, log_column, count_column)
+    except AdvisorError:
+        con.close()
+        raise
+    except duckdb.Error as e:
+        con.close()
+        raise InputInvalid(_first_line(str(e))) from None
+
+
+def _load(con, table, key, log, log_column, count_column) -> Workload:
+    tsql = _table_sql(con, table)
+    tcols = _columns(con, tsql, f"table {table}")
+    kcol = _find(tcols, key, f"table {table}")
+    ktype = tcols[kcol]
+    if ktype.upper().endswith("]") or ktype.upper().startswith(("STRUCT", "MAP", "UNION")):
+        raise InputInvalid(f"key column {kcol!r} has type {ktype}, which has no single sort order for an index")
+    k = quote(kcol)
+    con.execute(
+        f"CREATE OR REPLACE TEMP TABLE {KEYS_TABLE} AS "
+        f"SELECT {k} AS k, (row_number() OVER (ORDER BY {k}) - 1)::BIGINT AS r "
+        f"FROM (SELECT DISTINCT {k} FROM {tsql} WHERE {k} IS NOT NULL)"
+    )
+    rows, null_keys = con.execute(f"SELECT count(*), count(*) FILTER (WHERE {k} IS NULL) FROM {tsql}").fetchone()
+    n = con.execute(f"SELECT count(*) FROM {KEYS_TABLE}").fetchone()[0]
+    key_bytes = fixed_key_bytes(ktype)
+    if key_bytes is None:
+        if is_variable_width(ktype):
+            avg = con.execute(f"SELECT avg(octet_length(k::BLOB)) FROM {KEYS_TABLE}").fetchone()[0]
+        else:
+            avg = con.execute(f"SELECT avg(octet_length(k::VARCHAR::BLOB)) FROM {KEYS_TABLE}").fetchone()[0]
+        key_bytes = float(avg or 0.0) + LENGTH_PREFIX
+    info = {
+        "table_rows": int(rows),
+        "null_keys": int(null_keys),
+        "duplicate_rows": int(rows - null_keys - n),
+    }
+    if log is None:
+        hist = Histogram(np.zeros(n), np.zeros(n + 1), 0.0)
+        return Workload(con, hist, ktype, key_bytes, table, kcol, "", info)
+    lsql, lname = _log_source(con, log)
+    lcols = _columns(con, lsql, f"log {lname}")
+    vcol = _find(lcols, log_column or kcol, f"log {lname}")
+    weight = "1"
+    if count_column:
+        ccol = _find(lcols, count_column, f"log {lname}")
+        weight = _checked_count(con, lsql, ccol, lcols[ccol], lname)
+    v = quote(vcol)
+    info |= {"log_column": vcol, "log_type": lcols[vcol], "count_column": count_column}
+    probes = f"SELECT {v} AS v, sum({weight})::DOUBLE AS w FROM {lsql} GROUP BY {v}"
+    try:
+        agg = con.execute(
+            f"WITH probes AS ({probes}) "
+            f"SELECT coalesce(kk.r, -1) AS r, coalesce(p.v = kk.k, false) AS hit, sum(p.w) AS w "
+            f"FROM probes p ASOF LEFT JOIN {KEYS_TABLE} kk ON p.v >= kk.k "
+            f"WHERE p.v IS NOT NULL GROUP BY ALL"
+        ).fetchnumpy()
+        nulls = con.execute(f"SELECT coalesce(sum({weight})::DOUBLE, 0) FROM {lsql} WHERE {v} IS NULL").fetchone()[0]
+    except (duckdb.BinderException, duckdb.ConversionException) as e:
+        raise InputInvalid(
+            f"log column {vcol!r} ({lcols[vcol]}) cannot be compared with key column {kcol!r} ({ktype}): "
+            f"{_first_line(str(e))}"
+        ) from None
+    r = np.asarray(agg["r"], dtype=np.int64)
+    hit = np.asarray(agg["hit"], dtype=bool)
+    w = np.asarray(agg["w"], dtype=np.float64)
+    p = np.bincount(r[hit], weights=w[hit], minlength=n)[:n] if n else np.zeros(0)
+    q = np.bincount(r[~hit] + 1, weights=w[~hit], minlength=n + 1)[: n + 1]
+    hist = Histogram(p.astype(np.float64), q.astype(np.float64), float(nulls))
+    return Workload(con, hist, ktype, key_bytes, table, kcol, lname, info)
+
+
+def _checked_count(con, lsql: str, col: str, ctype: str, lname: str) -> str:
+    """SQL for the count column after rejecting NULL, NaN, negative or fractional counts."""
+    c = quote(col)
+    t = ctype.upper()
+    if not (t in ("TINYINT", "SMALLINT", "INTEGER", "BIGINT", "HUGEINT", "UTINYINT", "USMALLINT",
+                  "UINTEGER", "UBIGINT", "FLOAT", "DOUBLE") or t.startswith("DECIMAL")):
+        raise InputInvalid(f"count column {col!r} in {lname} has type {ctype}; a number is needed")
+    floaty = t in ("FLOAT", "DOUBLE")
+    nan = f"count(*) FILTER (WHERE isnan({c}))" if floaty else "0"
+    frac = f"count(*) FILTER (WHERE {c} <> floor({c}))" if (floaty or t.startswith("DECIMAL")) else "0"
+    nulls, neg, nans, fracs = con.execute(
+        f"SELECT count(*) FILTER (WHERE {c} IS NULL), count(*) FILTER (WHERE {c} < 0), {nan}, {frac} FROM {lsql}"
+    ).fetchone()
+    for bad, what in ((nulls, "NULL"), (nans, "NaN"), (neg, "negative"), (fracs, "fractional")):
+        if bad:
+            raise InputInvalid(f"count column {col!r} in {lname} has {bad} {what} value(s)")
+    if floaty:
+        inf = con.execute(f"SELECT count(*) FILTER (WHERE isinf({c})) FROM {lsql}").fetchone()[0]
+        if inf:
+            raise InputInvalid(f"count column {col!r} in {lname} has {inf} infinite value(s)")
+    return f"{c}::DOUBLE"
