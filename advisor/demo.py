@@ -60,12 +60,12 @@ def build_demo(
     try:
         con = duckdb.connect(str(tmp))
         con.register("k_in", {"packet_no": packet_no.astype(np.int64), "shelf": shelf.astype(np.int64)})
-        con.execute(f"CREATE TABLE {DEMO_TABLE} AS SELECT packet_no::BIGINT AS packet_no, shelf::INTEGER AS shelf FROM k_in")
+        con.execute(f"CREATE TABLE {DEMO_TABLE} AS SELECT packet_no::BIGINT AS packet_no, shelf::INTEGER AS shelf FROM k_in").fetchall()
         con.register("l_in", {"seq": np.arange(looked_up.size, dtype=np.int64), "v": looked_up})
         con.execute(
             f"CREATE TABLE {DEMO_LOG} AS SELECT seq AS lookup_seq, "
             f"CASE WHEN isnan(v) THEN NULL ELSE v::BIGINT END AS packet_no FROM l_in ORDER BY seq"
-        )
+        ).fetchall()
         con.close()
         os.replace(tmp, path)
     finally:

@@ -18,7 +18,7 @@ import numpy as np
 
 from .errors import InputInvalid, OutputRefused
 from .layout import Layout, LayoutBuilder, check_layout
-from .workload import KEYS_TABLE, Workload, quote, sql_string
+from .workload import KEYS_TABLE, Workload, quote, run_sql, sql_string
 
 FORMATS = {".csv": "csv", ".json": "json", ".parquet": "parquet", ".duckdb": "duckdb", ".db": "duckdb"}
 EXPORT_TABLE = "page_layout"
@@ -86,14 +86,14 @@ def write_layout(wl: Workload, layout: Layout, path: str | os.PathLike, replace:
     try:
         if fmt == "duckdb":
             alias = "advisor_export_target"
-            wl.con.execute(f"ATTACH {sql_string(str(tmp))} AS {alias}")
+            run_sql(wl.con, f"ATTACH {sql_string(str(tmp))} AS {alias} (READ_WRITE)")
             try:
-                wl.con.execute(f"CREATE TABLE {alias}.{EXPORT_TABLE} AS {select}")
+                run_sql(wl.con, f"CREATE TABLE {alias}.{EXPORT_TABLE} AS {select}")
             finally:
-                wl.con.execute(f"DETACH {alias}")
+                run_sql(wl.con, f"DETACH {alias}")
         else:
             opts = {"csv": "FORMAT csv, HEADER true", "json": "FORMAT json, ARRAY true", "parquet": "FORMAT parquet"}[fmt]
-            wl.con.execute(f"COPY ({select}) TO {sql_string(str(tmp))} ({opts})")
+            run_sql(wl.con, f"COPY ({select}) TO {sql_string(str(tmp))} ({opts})")
         os.replace(tmp, path)
     except duckdb.Error as e:
         raise OutputRefused(f"cannot write export {path}: {str(e).splitlines()[0]}") from None
@@ -118,7 +118,7 @@ def read_layout(wl: Workload, path: str | os.PathLike, capacity: int) -> Layout:
     elif fmt == "parquet":
         rel = f"read_parquet({sql_string(str(path))})"
     else:
-        wl.con.execute(f"ATTACH {sql_string(str(path))} AS advisor_import (READ_ONLY)")
+        run_sql(wl.con, f"ATTACH {sql_string(str(path))} AS advisor_import (READ_ONLY)")
         rel = f"advisor_import.{EXPORT_TABLE}"
     try:
         meta = wl.con.execute(
@@ -132,7 +132,7 @@ def read_layout(wl: Workload, path: str | os.PathLike, capacity: int) -> Layout:
         raise InputInvalid(f"cannot read layout {path}: {str(e).splitlines()[0]}") from None
     finally:
         if fmt == "duckdb":
-            wl.con.execute("DETACH advisor_import")
+            run_sql(wl.con, "DETACH advisor_import")
     if any(r is None for _, r in members):
         raise InputInvalid(f"layout {path} names keys that are not in table {quote(wl.table)}")
     by_page: dict[int, list[int]] = {}

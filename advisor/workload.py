@@ -18,7 +18,7 @@ import duckdb
 import numpy as np
 
 from .errors import AdvisorError, InputBusy, InputInvalid, InputNotFound
-from .geometry import LENGTH_PREFIX, fixed_key_bytes, is_variable_width
+from .geometry import LENGTH_PREFIX, fixed_key_bytes
 from .histogram import Histogram
 
 KEYS_TABLE = "advisor_ranked_keys"
@@ -32,6 +32,11 @@ def quote(name: str) -> str:
 
 def sql_string(text: str) -> str:
     return "'" + text.replace("'", "''") + "'"
+
+
+def run_sql(con: duckdb.DuckDBPyConnection, sql: str, params: list | None = None) -> list:
+    """Execute and drain a statement (an undrained result blocks the connection)."""
+    return con.execute(sql, params or []).fetchall()
 
 
 def open_database(path: str | os.PathLike) -> duckdb.DuckDBPyConnection:
@@ -50,7 +55,7 @@ def open_database(path: str | os.PathLike) -> duckdb.DuckDBPyConnection:
         if "not a valid DuckDB database" in text or "Unrecognized" in text or "Serialization" in text:
             raise InputInvalid(f"not a DuckDB database file: {path}") from None
         raise InputInvalid(f"cannot open database {path}: {_first_line(text)}") from None
-    con.execute("SET enable_progress_bar = false")
+    run_sql(con, "SET enable_progress_bar = false")
     return con
 
 
@@ -166,19 +171,18 @@ def _load(con, table, key, log, log_column, count_column) -> Workload:
     if ktype.upper().endswith("]") or ktype.upper().startswith(("STRUCT", "MAP", "UNION")):
         raise InputInvalid(f"key column {kcol!r} has type {ktype}, which has no single sort order for an index")
     k = quote(kcol)
-    con.execute(
+    run_sql(
+        con,
         f"CREATE OR REPLACE TEMP TABLE {KEYS_TABLE} AS "
         f"SELECT {k} AS k, (row_number() OVER (ORDER BY {k}) - 1)::BIGINT AS r "
         f"FROM (SELECT DISTINCT {k} FROM {tsql} WHERE {k} IS NOT NULL)"
     )
-    rows, null_keys = con.execute(f"SELECT count(*), count(*) FILTER (WHERE {k} IS NULL) FROM {tsql}").fetchone()
-    n = con.execute(f"SELECT count(*) FROM {KEYS_TABLE}").fetchone()[0]
+    rows, null_keys = con.execute(f"SELECT count(*), count(*) FILTER (WHERE {k} IS NULL) FROM {tsql}").fetchall()[0]
+    n = con.execute(f"SELECT count(*) FROM {KEYS_TABLE}").fetchall()[0][0]
     key_bytes = fixed_key_bytes(ktype)
     if key_bytes is None:
-        if is_variable_width(ktype):
-            avg = con.execute(f"SELECT avg(octet_length(k::BLOB)) FROM {KEYS_TABLE}").fetchone()[0]
-        else:
-            avg = con.execute(f"SELECT avg(octet_length(k::VARCHAR::BLOB)) FROM {KEYS_TABLE}").fetchone()[0]
+        width = "octet_length(k)" if ktype.upper().startswith(("BLOB", "BIT")) else "strlen(k::VARCHAR)"
+        avg = con.execute(f"SELECT avg({width}) FROM {KEYS_TABLE}").fetchall()[0][0]
         key_bytes = float(avg or 0.0) + LENGTH_PREFIX
     info = {
         "table_rows": int(rows),
@@ -205,7 +209,7 @@ def _load(con, table, key, log, log_column, count_column) -> Workload:
             f"FROM probes p ASOF LEFT JOIN {KEYS_TABLE} kk ON p.v >= kk.k "
             f"WHERE p.v IS NOT NULL GROUP BY ALL"
         ).fetchnumpy()
-        nulls = con.execute(f"SELECT coalesce(sum({weight})::DOUBLE, 0) FROM {lsql} WHERE {v} IS NULL").fetchone()[0]
+        nulls = con.execute(f"SELECT coalesce(sum({weight})::DOUBLE, 0) FROM {lsql} WHERE {v} IS NULL").fetchall()[0][0]
     except (duckdb.BinderException, duckdb.ConversionException) as e:
         raise InputInvalid(
             f"log column {vcol!r} ({lcols[vcol]}) cannot be compared with key column {kcol!r} ({ktype}): "
@@ -232,12 +236,12 @@ def _checked_count(con, lsql: str, col: str, ctype: str, lname: str) -> str:
     frac = f"count(*) FILTER (WHERE {c} <> floor({c}))" if (floaty or t.startswith("DECIMAL")) else "0"
     nulls, neg, nans, fracs = con.execute(
         f"SELECT count(*) FILTER (WHERE {c} IS NULL), count(*) FILTER (WHERE {c} < 0), {nan}, {frac} FROM {lsql}"
-    ).fetchone()
+    ).fetchall()[0]
     for bad, what in ((nulls, "NULL"), (nans, "NaN"), (neg, "negative"), (fracs, "fractional")):
         if bad:
             raise InputInvalid(f"count column {col!r} in {lname} has {bad} {what} value(s)")
     if floaty:
-        inf = con.execute(f"SELECT count(*) FILTER (WHERE isinf({c})) FROM {lsql}").fetchone()[0]
+        inf = con.execute(f"SELECT count(*) FILTER (WHERE isinf({c})) FROM {lsql}").fetchall()[0][0]
         if inf:
             raise InputInvalid(f"count column {col!r} in {lname} has {inf} infinite value(s)")
     return f"{c}::DOUBLE"

@@ -1,0 +1,82 @@
+"""Shared helpers: an independent page-by-page search replay and brute force over all layouts."""
+
+from __future__ import annotations
+
+import bisect
+from functools import lru_cache
+from itertools import combinations
+
+import numpy as np
+
+from advisor.histogram import Histogram
+from advisor.layout import Layout
+
+
+def replay_cost(layout: Layout, hist: Histogram) -> float:
+    """Walk every key and gap down the tree the way a search would, counting pages read.
+
+    A lookup of key k (rank) or of a value in gap g (strictly between ranks g-1 and g, shown as
+    g - 0.5) starts at the root, reads the page, stops if the value is on it, otherwise takes the
+    child slot the value falls into; an empty slot ends the search. Shares nothing with
+    advisor.layout.evaluate but the arrays.
+    """
+    if hist.n == 0:
+        return 0.0
+    children: dict[tuple[int, int], int] = {}
+    for page in range(1, layout.pages):
+        children[(int(layout.parent[page]), int(layout.slot[page]))] = page
+    keys = [list(layout.keys_of(p)) for p in range(layout.pages)]
+
+    def reads(value: float) -> int:
+        page, n_read = 0, 0
+        while True:
+            n_read += 1
+            ks = keys[page]
+            pos = bisect.bisect_left(ks, value)
+            if pos < len(ks) and ks[pos] == value:
+                return n_read
+            nxt = children.get((page, pos))
+            if nxt is None:
+                return n_read
+            page = nxt
+
+    total = sum(hist.p[k] * reads(k) for k in range(hist.n))
+    total += sum(hist.q[g] * reads(g - 0.5) for g in range(hist.n + 1))
+    return total / hist.total if hist.total > 0 else 0.0
+
+
+def brute_force_optimum(p, q, c) -> float:
+    """Minimum cost over EVERY B-tree of capacity c: each range tries every key subset of size
+    1..c as its root page (no full-page lemma, no forest recurrence). Returns cost / total."""
+    p = tuple(float(x) for x in p)
+    q = tuple(float(x) for x in q)
+    n = len(p)
+
+    def weight(lo, hi):  # keys lo..hi-1 and gaps lo..hi
+        return sum(p[lo:hi]) + sum(q[lo : hi + 1])
+
+    @lru_cache(maxsize=None)
+    def best(lo, hi):
+        if hi == lo:
+            return 0.0
+        w = weight(lo, hi)
+        top = float("inf")
+        keys = range(lo, hi)
+        for size in range(1, min(c, hi - lo) + 1):
+            for roots in combinations(keys, size):
+                edges = (lo - 1,) + roots + (hi,)
+                sub = sum(best(a + 1, b) for a, b in zip(edges[:-1], edges[1:]))
+                top = min(top, sub)
+        return w + top
+
+    total = sum(p) + sum(q)
+    return best(0, n) / total if total > 0 else 0.0
+
+
+def random_hist(rng: np.random.Generator, n: int, zero_share: float = 0.3, miss_scale: float = 0.3) -> Histogram:
+    p = rng.integers(0, 100, n).astype(float)
+    p[rng.random(n) < zero_share] = 0
+    q = np.round(rng.integers(0, 100, n + 1) * miss_scale)
+    if p.sum() + q.sum() == 0:
+        p[0] = 1
+    return Histogram(p, q)

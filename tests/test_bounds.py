@@ -1,0 +1,67 @@
+"""Lower bounds against scipy, brute force and hand-checked level packing."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from scipy.stats import entropy as scipy_entropy
+from scipy.stats import zipfian
+
+from advisor.histogram import Histogram
+from advisor.optimize import entropy_bound, level_capacity_bound, solve_exact
+
+from .conftest import brute_force_optimum, random_hist
+
+
+def test_entropy_matches_scipy():
+    rng = np.random.default_rng(3)
+    hist = random_hist(rng, 500)
+    w = np.concatenate([hist.p, hist.q])
+    assert hist.entropy_bits() == pytest.approx(scipy_entropy(w, base=2), rel=1e-12)
+
+
+def test_entropy_of_zipf_workload_matches_scipy():
+    # Zipf's law workload from scipy.stats.zipfian (s = 1, n = 1000)
+    n = 1000
+    p = zipfian.pmf(np.arange(1, n + 1), 1.0, n)
+    hist = Histogram(p, np.zeros(n + 1))
+    assert hist.entropy_bits() == pytest.approx(scipy_entropy(p, base=2), rel=1e-12)
+    assert entropy_bound(hist, 10) == pytest.approx(max(1.0, scipy_entropy(p, base=2) / np.log2(21)))
+
+
+def test_level_capacity_by_hand():
+    # c = 2: depth 1 holds 2 keys, depth 2 holds 6. Weights 10,9,8,...,1 (no misses):
+    # depth 1 gets 10+9, depth 2 gets 8..3, depth 3 gets 2+1.
+    p = np.arange(10, 0, -1).astype(float)
+    hist = Histogram(p, np.zeros(11))
+    expected = (1 * 19 + 2 * (8 + 7 + 6 + 5 + 4 + 3) + 3 * 3) / 55
+    assert level_capacity_bound(hist, 2) == pytest.approx(expected)
+
+
+@settings(max_examples=80, deadline=None)
+@given(data=st.data(), c=st.integers(1, 3))
+def test_bounds_never_exceed_the_brute_force_optimum(data, c):
+    n = data.draw(st.integers(1, 6))
+    p = data.draw(st.lists(st.integers(0, 40), min_size=n, max_size=n))
+    q = data.draw(st.lists(st.integers(0, 40), min_size=n + 1, max_size=n + 1))
+    if sum(p) + sum(q) == 0:
+        q[0] = 1
+    hist = Histogram(np.array(p, float), np.array(q, float))
+    opt = brute_force_optimum(p, q, c)
+    assert entropy_bound(hist, c) <= opt + 1e-12
+    assert level_capacity_bound(hist, c) <= opt + 1e-12
+
+
+@pytest.mark.parametrize("c", [2, 8, 30])
+def test_bounds_below_exact_optimum_on_zipf(c):
+    n = 200
+    rng = np.random.default_rng(c)
+    p = zipfian.pmf(rng.permutation(n) + 1, 1.1, n) * 1e6
+    q = np.zeros(n + 1)
+    q[rng.integers(0, n + 1, 20)] = 1e3
+    hist = Histogram(p, q)
+    opt = solve_exact(hist, c).objective
+    assert entropy_bound(hist, c) <= opt + 1e-12
+    assert level_capacity_bound(hist, c) <= opt + 1e-12

