@@ -14,11 +14,20 @@ from typing import Callable
 from .geometry import Geometry
 from .histogram import Histogram
 from .layout import Cost, Layout, check_layout, evaluate
-from .optimize import balanced_layout, exact_work, lower_bounds, solve_exact, uniform_layout
+from .optimize import balanced_layout, exact_work, hot_first_layout, lower_bounds, polish, solve_exact, uniform_layout
 
 EXACT_MAX_OPS = 1.5e9  # about 5 s of numpy on one core of this machine kind
 EXACT_MAX_BYTES = 2.0e9
-SPREADS = (0.0, 0.02, 0.1, 0.5, 2.0)
+
+
+def near_candidates(hist: Histogram, c: int):
+    """(name, builder) of every near-optimal construction the planner tries."""
+    yield "weight-balanced", lambda: balanced_layout(hist, c, 0.0)
+    yield "weight-balanced, spread 0.1", lambda: balanced_layout(hist, c, 0.1)
+    yield "hot-first", lambda: hot_first_layout(hist, c, 0)
+    yield "hot-first, one level more at the root", lambda: hot_first_layout(hist, c, 1)
+    yield "hot-first, one level more everywhere", lambda: hot_first_layout(hist, c, 1, everywhere=True)
+
 PROOF_TOLERANCE = 1e-9
 
 
@@ -63,7 +72,7 @@ class Plan:
 class PlanOptions:
     exact_max_ops: float = EXACT_MAX_OPS
     exact_max_bytes: float = EXACT_MAX_BYTES
-    spreads: tuple = SPREADS
+    polish_ops: float = 3e8  # exact DP work spent re-solving small subtrees of a near plan
     check: bool = True
     extra: dict = field(default_factory=dict)
 
@@ -89,13 +98,19 @@ def plan_capacity(
         best, method, proven, dp_objective = res.layout, "exact DP", True, res.objective
         best_cost = evaluate(best, hist)
     else:
-        best, best_cost, method = uni, uni_cost, "uniform split"
-        for s in opts.spreads:
-            step(f"balanced {s:g}")
-            cand = balanced_layout(hist, c, spread=s)
+        best, best_cost, method = uni, uni_cost, "even split (nothing better found)"
+        for name, build in near_candidates(hist, c):
+            step(name)
+            cand = build()
             cost = evaluate(cand, hist)
             if cost.expected_page_reads < best_cost.expected_page_reads:
-                best, best_cost, method = cand, cost, f"weight-balanced (spread {s:g})"
+                best, best_cost, method = cand, cost, name
+        if opts.polish_ops > 0 and best is not uni:
+            step("exact re-solve of small subtrees")
+            polished = polish(best, hist, opts.polish_ops)
+            cost = evaluate(polished, hist)
+            if cost.expected_page_reads < best_cost.expected_page_reads:
+                best, best_cost, method = polished, cost, method + " + exact small subtrees"
         proven = False
     if opts.check:
         check_layout(best)

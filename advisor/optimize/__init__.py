@@ -5,15 +5,20 @@ any size), ``uniform_layout`` (the even-split baseline) and ``lower_bounds``.
 """
 
 from .bounds import entropy_bound, level_capacity_bound, lower_bounds
-from .exact import exact_work, solve_exact
-from .near import balanced_layout, heaviest_first_layout
+from .exact import exact_work, halving_chain, solve_exact, solve_textbook, textbook_work
+from .near import balanced_layout, heaviest_first_layout, hot_first_layout, polish
 from .uniform import min_height, uniform_layout
 
 __all__ = [
     "balanced_layout",
     "entropy_bound",
     "exact_work",
+    "halving_chain",
+    "solve_textbook",
+    "textbook_work",
     "heaviest_first_layout",
+    "hot_first_layout",
+    "polish",
     "level_capacity_bound",
     "lower_bounds",
     "min_height",

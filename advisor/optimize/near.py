@@ -6,8 +6,11 @@ a range with more than c keys gets a full root page whose c keys cut the range's
 (hits and misses, in key order) as near as possible into c + 1 equal parts, so a key with
 share x of the traffic ends near depth log_{c+1}(1/x). A blend parameter ``spread`` adds
 ``spread`` times the mean weight to every key and gap first: 0 follows the traffic only, large
-values approach the even split, which matters where many keys are never looked up. Ranges small
-enough are finished by the exact DP, which is optimal for that sub-range on its own.
+values approach the even split, which matters where many keys are never looked up. 
+``hot_first_layout`` lifts the heaviest keys of each range into its page, subject to every
+sub-range still fitting under the page in the even split's height, so it never gets taller than
+the baseline. ``polish`` then replaces small subtrees of any layout by their exact optimum,
+which is optimal for that sub-range on its own (a subtree's cost does not depend on the rest).
 
 Nothing here claims optimality; the planner pairs it with a lower bound and reports the gap.
 """
@@ -21,13 +24,13 @@ import numpy as np
 
 from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
-from .exact import _rebuild, _tables, exact_work
+from .exact import exact_work, solve_exact
+from .uniform import min_height
 
-SUBTREE_EXACT_OPS = 2.0e5  # ranges whose DP costs at most this many element ops go exact
 
 
 def balanced_layout(hist: Histogram, c: int, spread: float = 0.0) -> Layout:
-    """Weight-balanced top-down layout; O(n log n) plus small exact sub-solves."""
+    """Weight-balanced top-down layout; O(n log n)."""
     n = hist.n
     b = LayoutBuilder(n, c)
     if n == 0:
@@ -47,9 +50,6 @@ def balanced_layout(hist: Histogram, c: int, spread: float = 0.0) -> Layout:
         size = hi - lo
         if size <= c:
             b.add(np.arange(lo, hi), parent, slot)
-            continue
-        if exact_work(size, c)[0] <= SUBTREE_EXACT_OPS:
-            _graft_exact(b, hist, lo, hi, c, parent, slot)
             continue
         roots = _cut_points(cum, mid, lo, hi, c)
         page = b.add(roots, parent, slot)
@@ -94,16 +94,6 @@ def _fill(cum, mid, lo, hi, pick, c):
     return np.array(sorted(chosen), dtype=np.int64)
 
 
-def _graft_exact(b: LayoutBuilder, hist: Histogram, lo: int, hi: int, c: int, parent: int, slot: int):
-    """Solve keys lo..hi-1 (and their gaps) exactly and attach the subtree at (parent, slot)."""
-    t = _tables(hist.p[lo:hi], hist.q[lo : hi + 1], c)
-    sub = _rebuild(t, hi - lo, c)
-    ids = []
-    for k in range(sub.pages):
-        par = sub.parent[k]
-        ids.append(b.add(sub.keys_of(k) + lo, parent if par < 0 else ids[par], slot if par < 0 else int(sub.slot[k])))
-
-
 def heaviest_first_layout(hist: Histogram, c: int) -> Layout:
     """Simple greedy: each page takes its range's c heaviest keys (a comparison point only)."""
     n = hist.n
@@ -125,3 +115,150 @@ def heaviest_first_layout(hist: Histogram, c: int) -> Layout:
             if ends[t] > begins[t]:
                 todo.append((int(begins[t]), int(ends[t]), page, t))
     return b.build()
+
+
+def _key_scores(hist: Histogram) -> np.ndarray:
+    """Weight a key saves when lifted: its hits plus half of each neighbouring gap's misses."""
+    return hist.p + 0.5 * (hist.q[:-1] + hist.q[1:])
+
+
+def hot_first_layout(hist: Histogram, c: int, extra_levels: int = 0, everywhere: bool = False) -> Layout:
+    """Each page takes its range's heaviest keys such that every child range fits below it.
+
+    A range of N keys gets the height budget h = min_height(N) + ``extra_levels`` (at the root
+    only, or at every range when ``everywhere``);
+    its page's c keys must leave runs of at most (c+1)^(h-1) - 1 keys between them. Start from
+    the c heaviest keys, split over-long runs at evenly spaced keys, then drop the lightest keys
+    whose removal keeps every run short enough. O(n log n) overall.
+    """
+    n = hist.n
+    b = LayoutBuilder(n, c)
+    if n == 0:
+        return b.build()
+    score = _key_scores(hist)
+    todo = deque([(0, n, -1, -1, extra_levels)])
+    while todo:
+        lo, hi, parent, slot, extra = todo.popleft()
+        size = hi - lo
+        if size <= c:
+            b.add(np.arange(lo, hi), parent, slot)
+            continue
+        g = (c + 1) ** (min_height(size, c) - 1 + extra) - 1
+        roots = _heaviest_within_runs(score[lo:hi], c, g)
+        if roots is None:  # repair failed: fall back to the even split of this range
+            roots = _even_roots(size, c)
+        roots = roots + lo
+        page = b.add(roots, parent, slot)
+        begins = np.concatenate([[lo], roots + 1])
+        ends = np.concatenate([roots, [hi]])
+        for t in range(roots.size + 1):
+            if ends[t] > begins[t]:
+                todo.append((int(begins[t]), int(ends[t]), page, t, extra if everywhere else 0))
+    return b.build()
+
+
+def _even_roots(size: int, c: int) -> np.ndarray:
+    """c keys splitting ``size`` keys into c + 1 runs of near-equal length."""
+    rest = size - c
+    runs = np.full(c + 1, rest // (c + 1), dtype=np.int64)
+    runs[: rest % (c + 1)] += 1
+    return np.cumsum(runs)[:-1] + np.arange(c)
+
+
+def _heaviest_within_runs(w: np.ndarray, c: int, g: int) -> np.ndarray | None:
+    """c positions of high total weight leaving runs of at most g unchosen positions."""
+    N = w.size
+    chosen = np.sort(np.argpartition(-w, c - 1)[:c])
+    edges = np.concatenate([[-1], chosen, [N]])
+    runs = np.diff(edges) - 1
+    bad = np.nonzero(runs > g)[0]
+    if bad.size:
+        extra = []
+        for k in bad:
+            a, z = int(edges[k]), int(edges[k + 1])
+            length = z - a - 1
+            need = -(-(length - g) // (g + 1))
+            extra.append(a + np.round(np.arange(1, need + 1) * (length + 1) / (need + 1)).astype(np.int64))
+        chosen = np.unique(np.concatenate([chosen] + extra))
+    if chosen.size == c:
+        return chosen
+    # drop the lightest keys whose removal keeps both neighbouring runs merged within g
+    keys = chosen.tolist()
+    left = {x: (keys[i - 1] if i else -1) for i, x in enumerate(keys)}
+    right = {x: (keys[i + 1] if i + 1 < len(keys) else N) for i, x in enumerate(keys)}
+    heap = [(float(w[x]), x) for x in keys]
+    heapq.heapify(heap)
+    alive = len(keys)
+    deferred = []
+    while alive > c and heap:
+        wt, x = heapq.heappop(heap)
+        lx, rx = left[x], right[x]
+        if rx - lx - 1 <= g:
+            del left[x], right[x]
+            if lx >= 0:
+                right[lx] = rx
+            if rx < N:
+                left[rx] = lx
+            alive -= 1
+            for item in deferred:  # neighbours changed: retry keys set aside
+                heapq.heappush(heap, item)
+            deferred = []
+        else:
+            deferred.append((wt, x))
+    if alive != c:
+        return None
+    return np.array(sorted(left), dtype=np.int64)
+
+
+def subtree_ranges(layout: Layout) -> tuple[np.ndarray, np.ndarray]:
+    """Smallest and largest key rank in every page's subtree."""
+    keys, start, parent = layout.page_keys, layout.page_start, layout.parent
+    lo = keys[start[:-1]].copy()
+    hi = keys[start[1:] - 1].copy()
+    depth = layout.depths()
+    for d in range(int(depth.max()) if depth.size else 0, 1, -1):
+        at = np.nonzero(depth == d)[0]
+        np.minimum.at(lo, parent[at], lo[at])
+        np.maximum.at(hi, parent[at], hi[at])
+    return lo, hi
+
+
+def polish(layout: Layout, hist: Histogram, ops_budget: float = 3e8, max_subtree_ops: float = 2e7) -> Layout:
+    """Replace the largest affordable subtrees by their exact optimum (never raises the cost).
+
+    A subtree over keys lo..hi (and gaps lo..hi+1) costs the same wherever it hangs, so the
+    exact optimum of that range is at least as good in place. Subtrees are taken top-down, each
+    within ``max_subtree_ops`` of DP work, until ``ops_budget`` is spent.
+    """
+    c, n = layout.capacity, layout.n_keys
+    if layout.pages <= 1:
+        return layout
+    lo, hi = subtree_ranges(layout)
+    kids: dict[int, list[tuple[int, int]]] = {}
+    for page in range(1, layout.pages):
+        kids.setdefault(int(layout.parent[page]), []).append((int(layout.slot[page]), page))
+    b = LayoutBuilder(n, c, layout.structure)
+    spent = 0.0
+    todo = deque([(0, -1, -1)])
+    while todo:
+        page, parent, slot = todo.popleft()
+        size = int(hi[page] - lo[page] + 1)
+        work = exact_work(size, c)[0]
+        if kids.get(page) and work <= max_subtree_ops and spent + work <= ops_budget:
+            spent += work
+            _graft_exact(b, hist, int(lo[page]), int(hi[page]) + 1, c, parent, slot)
+            continue
+        new = b.add(layout.keys_of(page), parent, slot)
+        for s, child in sorted(kids.get(page, [])):
+            todo.append((child, new, s))
+    return b.build()
+
+
+def _graft_exact(b: LayoutBuilder, hist: Histogram, lo: int, hi: int, c: int, parent: int, slot: int) -> None:
+    """Solve keys lo..hi-1 (and their gaps) exactly and attach the subtree at (parent, slot)."""
+    sub_hist = Histogram(hist.p[lo:hi], hist.q[lo : hi + 1])
+    sub = solve_exact(sub_hist, c).layout
+    ids: list[int] = []
+    for k in range(sub.pages):
+        par = int(sub.parent[k])
+        ids.append(b.add(sub.keys_of(k) + lo, parent if par < 0 else ids[par], slot if par < 0 else int(sub.slot[k])))
