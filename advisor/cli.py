@@ -9,10 +9,12 @@ from __future__ import annotations
 
 import json
 import sys
+import time
 from contextlib import contextmanager
 from pathlib import Path
 from typing import Annotated, Optional
 
+import duckdb
 import typer
 from rich.console import Console
 from rich.progress import BarColumn, Progress, SpinnerColumn, TextColumn, TimeElapsedColumn
@@ -44,13 +46,15 @@ def _guard():
         yield
     except AdvisorError as e:
         _fail(str(e), e.exit_code)
-    except KeyboardInterrupt:
+    except (KeyboardInterrupt, duckdb.InterruptException):
         _fail("interrupted; no output file was left behind", 130)
     except typer.Exit:
         raise
     except MemoryError:
         _fail("out of memory; try fewer page sizes or a smaller table", 1)
     except Exception as e:  # noqa: BLE001 - the promise is no traceback
+        if "interrupted" in str(e).lower():  # DuckDB turns Ctrl-C inside a query into its own error
+            _fail("interrupted; no output file was left behind", 130)
         _fail(f"internal error ({type(e).__name__}): {e}", 1)
 
 
@@ -72,11 +76,14 @@ ExportForOpt = Annotated[Optional[int], typer.Option("--export-for", help="Expor
 ForceOpt = Annotated[bool, typer.Option("--force", help="Replace an existing export file.")]
 
 
-def _run(database, table, key, log, settings, as_json, export, export_for, force, log_column=None, count_column=None):
+def _run(database, table, key, log, settings, as_json, export, export_for, force, log_column=None, count_column=None,
+         distinct_keys=False):  # fmt: skip
     stdout = Console(highlight=False)
     if export is not None:
         check_destination(export)
-    with load_workload(database, table, key, log, log_column, count_column) as wl:
+    t0 = time.perf_counter()
+    with load_workload(database, table, key, log, log_column, count_column, distinct_keys) as wl:
+        t_hist = time.perf_counter() - t0
         targets = capacities(settings, wl.key_bytes)
         seen, unique = set(), []
         for c, g in targets:
@@ -104,6 +111,7 @@ def _run(database, table, key, log, settings, as_json, export, export_for, force
             "key_bytes": round(wl.key_bytes, 2), "log": wl.log or "(none)", **wl.info,
         }  # fmt: skip
         run = run_dict(wl.hist, plans, inputs, written)
+        run["timings"] = {"histogram_seconds": round(t_hist, 3), "total_seconds": round(time.perf_counter() - t0, 3)}
     if as_json:
         print(json.dumps(run, indent=2, default=str))
     else:
@@ -128,12 +136,14 @@ def plan_cmd(
     export: ExportOpt = None,
     export_for: ExportForOpt = None,
     force: ForceOpt = False,
+    distinct_keys: Annotated[bool, typer.Option("--distinct-keys", help="Accept a key column with repeated values: one entry per distinct value.")] = False,
 ) -> None:
     """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
     with _guard():
         settings = PageSettings(list(page_size or []), list(keys_per_page or []), page_header, record_pointer,
                                 child_pointer, key_bytes)  # fmt: skip
-        _run(database, table, key, log, settings, as_json, export, export_for, force, log_column, count_column)
+        _run(database, table, key, log, settings, as_json, export, export_for, force, log_column, count_column,
+             distinct_keys)  # fmt: skip
 
 
 @app.command("demo")

@@ -95,6 +95,8 @@ def write_layout(wl: Workload, layout: Layout, path: str | os.PathLike, replace:
             opts = {"csv": "FORMAT csv, HEADER true", "json": "FORMAT json, ARRAY true", "parquet": "FORMAT parquet"}[fmt]
             run_sql(wl.con, f"COPY ({select}) TO {sql_string(str(tmp))} ({opts})")
         os.replace(tmp, path)
+    except duckdb.InterruptException:
+        raise KeyboardInterrupt from None
     except duckdb.Error as e:
         raise OutputRefused(f"cannot write export {path}: {str(e).splitlines()[0]}") from None
     finally:

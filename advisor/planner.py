@@ -92,7 +92,10 @@ def plan_capacity(
     uni_cost = evaluate(uni, hist)
     ops, mem = exact_work(hist.n, c)
     dp_objective = None
-    if ops <= opts.exact_max_ops and mem <= opts.exact_max_bytes:
+    if hist.total <= 0:
+        # nothing is looked up: every layout costs 0, so keep the layout the loader would build
+        best, best_cost, method, proven = uni, uni_cost, "no lookups: even split kept", True
+    elif ops <= opts.exact_max_ops and mem <= opts.exact_max_bytes:
         step("exact")
         res = solve_exact(hist, c)
         best, method, proven, dp_objective = res.layout, "exact DP", True, res.objective

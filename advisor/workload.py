@@ -145,25 +145,32 @@ def load_workload(
     log: str | None,
     log_column: str | None = None,
     count_column: str | None = None,
+    distinct_keys: bool = False,
 ) -> Workload:
     """Open ``database`` read-only and build the histogram of ``log`` against ``table.key``.
 
     ``log`` is a table in the same database or a path to a Parquet/CSV file; ``None`` means no
     log (every weight zero). ``log_column`` defaults to ``key``; ``count_column`` makes each
-    log row stand for that many lookups.
+    log row stand for that many lookups. A key column with repeated values is refused unless
+    ``distinct_keys``: then the index is planned over the distinct values (one entry per value,
+    as a unique index or a value-to-row-list index stores them). NULL keys are never indexed;
+    they are counted in ``info``.
     """
     con = open_database(database)
     try:
-        return _load(con, table, key, log, log_column, count_column)
-    except AdvisorError:
+        return _load(con, table, key, log, log_column, count_column, distinct_keys)
+    except (AdvisorError, KeyboardInterrupt):
         con.close()
         raise
+    except duckdb.InterruptException:
+        con.close()
+        raise KeyboardInterrupt from None
     except duckdb.Error as e:
         con.close()
         raise InputInvalid(_first_line(str(e))) from None
 
 
-def _load(con, table, key, log, log_column, count_column) -> Workload:
+def _load(con, table, key, log, log_column, count_column, distinct_keys) -> Workload:
     tsql = _table_sql(con, table)
     tcols = _columns(con, tsql, f"table {table}")
     kcol = _find(tcols, key, f"table {table}")
@@ -189,6 +196,11 @@ def _load(con, table, key, log, log_column, count_column) -> Workload:
         "null_keys": int(null_keys),
         "duplicate_rows": int(rows - null_keys - n),
     }
+    if info["duplicate_rows"] and not distinct_keys:
+        raise InputInvalid(
+            f"key column {kcol!r} repeats values ({info['duplicate_rows']} rows share a key with another row); "
+            "pass --distinct-keys to plan one index entry per distinct value"
+        )
     if log is None:
         hist = Histogram(np.zeros(n), np.zeros(n + 1), 0.0)
         return Workload(con, hist, ktype, key_bytes, table, kcol, "", info)

@@ -45,7 +45,7 @@ def make_db(path, key_sql_type, keys, log, counts=None):
 def _check(tmp_path, sql_type, keys, log, counts=None):
     db = tmp_path / "w.duckdb"
     make_db(db, sql_type, keys, log, counts)
-    with load_workload(db, "t", "k", "lg", count_column="n" if counts is not None else None) as wl:
+    with load_workload(db, "t", "k", "lg", count_column="n" if counts is not None else None, distinct_keys=True) as wl:
         p, q, nulls = numpy_histogram(keys, log, counts)
         np.testing.assert_allclose(wl.hist.p, p)
         np.testing.assert_allclose(wl.hist.q, q)
