@@ -25,7 +25,9 @@ from .errors import AdvisorError
 from .export import check_destination, check_target, write_layout
 from .serialize import run_dict
 from .report import render_run
-from .workload import load_workload
+from .workload import load_replay, load_workload
+from .bufferpool import pool_figures
+from .errors import SettingInvalid
 
 app = typer.Typer(
     add_completion=False,
@@ -77,7 +79,7 @@ ForceOpt = Annotated[bool, typer.Option("--force", help="Replace an existing exp
 
 
 def _run(database, table, key, log, settings, as_json, export, export_for, force, log_column=None, count_column=None,
-         distinct_keys=False):  # fmt: skip
+         distinct_keys=False, pool_pages=None, order_column=None, replay_limit=1_000_000):  # fmt: skip
     stdout = Console(highlight=False)
     if export is not None:
         check_destination(export)
@@ -99,6 +101,12 @@ def _run(database, table, key, log, settings, as_json, export, export_for, force
 
             plans = advise(wl.hist, unique, on_plan=on_plan)
             bar.update(task, completed=len(unique))
+        replay = None
+        if order_column:
+            if not log:
+                raise SettingInvalid("--order-column needs --log")
+            replay = load_replay(wl, order_column, replay_limit)
+        pools = [pool_figures(p.uniform, p.recommended, wl.hist, replay, pool_pages) for p in plans]
         written: list[str] = []
         if export is not None:
             targets_out = export_paths(export, plans, export_for)
@@ -108,9 +116,11 @@ def _run(database, table, key, log, settings, as_json, export, export_for, force
                 written.append(str(write_layout(wl, plan.recommended, path, replace=force)))
         inputs = {
             "database": str(database), "table": wl.table, "key": wl.key, "key_type": wl.key_type,
-            "key_bytes": round(wl.key_bytes, 2), "log": wl.log or "(none)", **wl.info,
+            "key_bytes": round(wl.key_bytes, 2), "log": wl.log or "(none)",
+            **{k: v for k, v in wl.info.items() if k != "log_source"},
+            "replayed_lookups": int(replay.outcomes.size) if replay is not None else None,
         }  # fmt: skip
-        run = run_dict(wl.hist, plans, inputs, written)
+        run = run_dict(wl.hist, plans, inputs, written, pools)
         run["timings"] = {"histogram_seconds": round(t_hist, 3), "total_seconds": round(time.perf_counter() - t0, 3)}
     if as_json:
         print(json.dumps(run, indent=2, default=str))
@@ -137,13 +147,16 @@ def plan_cmd(
     export_for: ExportForOpt = None,
     force: ForceOpt = False,
     distinct_keys: Annotated[bool, typer.Option("--distinct-keys", help="Accept a key column with repeated values: one entry per distinct value.")] = False,
+    pool_pages: Annotated[Optional[list[int]], typer.Option("--pool-pages", help="Buffer pool size in pages (repeatable; default 0.1% to 10% of the index).", min=1)] = None,
+    order_column: Annotated[Optional[str], typer.Option("--order-column", help="Log column giving lookup order (time or sequence): enables the LRU replay.")] = None,
+    replay_limit: Annotated[int, typer.Option("--replay-limit", help="Replay at most this many lookups (the earliest).", min=1)] = 1_000_000,
 ) -> None:
     """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
     with _guard():
         settings = PageSettings(list(page_size or []), list(keys_per_page or []), page_header, record_pointer,
                                 child_pointer, key_bytes)  # fmt: skip
         _run(database, table, key, log, settings, as_json, export, export_for, force, log_column, count_column,
-             distinct_keys)  # fmt: skip
+             distinct_keys, pool_pages, order_column, replay_limit)  # fmt: skip
 
 
 @app.command("demo")
@@ -162,7 +175,8 @@ def demo_cmd(
     with _guard():
         db = build_demo(directory, seed=seed, keys=keys, lookups=lookups)
         settings = PageSettings(list(page_size or []), list(keys_per_page or []))
-        _run(db, DEMO_TABLE, DEMO_KEY, DEMO_LOG, settings, as_json, export, None, force)
+        _run(db, DEMO_TABLE, DEMO_KEY, DEMO_LOG, settings, as_json, export, None, force,
+             order_column="lookup_seq", replay_limit=300_000)  # fmt: skip
 
 
 def main() -> None:  # pragma: no cover - console script entry

@@ -204,3 +204,36 @@ def evaluate(layout: Layout, hist: Histogram) -> Cost:
     else:
         reads, shares = 0.0, np.zeros(height)
     return Cost(reads, layout.pages, height, shares, key_depth, gap_depth)
+
+
+def end_pages(layout: Layout) -> tuple[np.ndarray, np.ndarray]:
+    """Page where each hit (per key) and each miss (per gap) stops: the last page it reads."""
+    n = layout.n_keys
+    key_page = np.empty(n, dtype=np.int64)
+    key_page[layout.page_keys] = np.repeat(np.arange(layout.pages), layout.page_sizes())
+    if n == 0:
+        return key_page, np.zeros(1, dtype=np.int64)
+    depth = layout.depths()[key_page]
+    gap_page = np.empty(n + 1, dtype=np.int64)
+    gap_page[0], gap_page[n] = key_page[0], key_page[n - 1]
+    deeper_left = depth[:-1] >= depth[1:]
+    gap_page[1:n] = np.where(deeper_left, key_page[:-1], key_page[1:])
+    return key_page, gap_page
+
+
+def page_traffic(layout: Layout, hist: Histogram) -> np.ndarray:
+    """Lookup weight that reads each page: everything stopping in the page's subtree.
+
+    Sums to expected page reads times total weight, which ties the buffer-pool figures to the
+    evaluator's.
+    """
+    if layout.pages == 0:
+        return np.zeros(0)
+    key_page, gap_page = end_pages(layout)
+    acc = np.bincount(key_page, weights=hist.p, minlength=layout.pages)
+    acc += np.bincount(gap_page, weights=hist.q, minlength=layout.pages)
+    depth = layout.depths()
+    for d in range(int(depth.max()), 1, -1):
+        at = np.nonzero(depth == d)[0]
+        np.add.at(acc, layout.parent[at], acc[at])
+    return acc

@@ -96,6 +96,26 @@ def depth_table(run: dict) -> Table:
     return t
 
 
+def pool_table(run: dict) -> Table | None:
+    """Page misses per lookup for each buffer-pool size, even split vs advised layout."""
+    if not run["plans"] or "buffer_pool" not in run["plans"][0]:
+        return None
+    lru = "uniform_lru" in run["plans"][0]["buffer_pool"][0] if run["plans"][0]["buffer_pool"] else False
+    t = Table(title="Buffer pool: page misses per lookup (pinned = the B most-read pages kept)", title_justify="left")
+    for name in ("c", "pool pages", "% of index", "pinned even", "pinned advised") + (("LRU even", "LRU advised") if lru else ()):
+        t.add_column(name, justify="right")
+    for p in run["plans"]:
+        for i, row in enumerate(p["buffer_pool"]):
+            cells = [str(p["keys_per_page"]) if i == 0 else "", f"{row['pool_pages']:,}", _pct(row["share_of_index"]),
+                     f"{row['uniform_pinned']:.3f}", f"[bold]{row['optimized_pinned']:.3f}[/bold]"]  # fmt: skip
+            if lru:
+                cells += [f"{row['uniform_lru']:.3f}", f"[bold]{row['optimized_lru']:.3f}[/bold]"]
+            t.add_row(*cells, end_section=i == len(p["buffer_pool"]) - 1)
+    t.caption = "% of index: pool size as a share of the even split's pages; LRU: the log replayed in order, cold start"
+    t.caption_justify = "left"
+    return t
+
+
 def method_notes(run: dict) -> Text:
     lines = []
     for p in run["plans"]:
@@ -128,7 +148,11 @@ def render_run(run: dict) -> Group:
         parts.append(Text("The log holds no lookups of non-NULL values: nothing to optimise; "
                           "the even split is shown as is.", style="yellow"))  # fmt: skip
     if run["plans"]:
-        parts += [plans_table(run), depth_table(run), method_notes(run)]
+        parts += [plans_table(run), depth_table(run)]
+        pools = pool_table(run)
+        if pools is not None:
+            parts.append(pools)
+        parts.append(method_notes(run))
     e = export_text(run)
     if e is not None:
         parts.append(e)

@@ -40,7 +40,8 @@ def plan_dict(plan: Plan) -> dict:
     }
 
 
-def run_dict(hist: Histogram, plans: list[Plan], inputs: dict, exports: list[str] | None = None) -> dict:
+def run_dict(hist: Histogram, plans: list[Plan], inputs: dict, exports: list[str] | None = None,
+             pools: list[list[dict]] | None = None) -> dict:  # fmt: skip
     s = hist.summary()
     return {
         "schema_version": SCHEMA_VERSION,
@@ -51,7 +52,7 @@ def run_dict(hist: Histogram, plans: list[Plan], inputs: dict, exports: list[str
         "misses": float(s["misses"]),
         "null_lookups": float(s["null_lookups"]),
         "histogram": {k: v for k, v in s.items() if k not in ("keys", "lookups", "hits", "misses", "null_lookups")},
-        "plans": [plan_dict(p) for p in plans],
+        "plans": [plan_dict(p) | ({"buffer_pool": pools[i]} if pools else {}) for i, p in enumerate(plans)],
         "exports": exports or [],
         "advice": "Advice only: test any layout on a copy before production use.",
     }

@@ -212,7 +212,7 @@ def _load(con, table, key, log, log_column, count_column, distinct_keys) -> Work
         ccol = _find(lcols, count_column, f"log {lname}")
         weight = _checked_count(con, lsql, ccol, lcols[ccol], lname)
     v = quote(vcol)
-    info |= {"log_column": vcol, "log_type": lcols[vcol], "count_column": count_column}
+    info |= {"log_column": vcol, "log_type": lcols[vcol], "count_column": count_column, "log_source": log}
     probes = f"SELECT {v} AS v, sum({weight})::DOUBLE AS w FROM {lsql} GROUP BY {v}"
     try:
         agg = con.execute(
@@ -257,3 +257,24 @@ def _checked_count(con, lsql: str, col: str, ctype: str, lname: str) -> str:
         if inf:
             raise InputInvalid(f"count column {col!r} in {lname} has {inf} infinite value(s)")
     return f"{c}::DOUBLE"
+
+
+def load_replay(wl: Workload, order_column: str, limit: int = 1_000_000):
+    """The log's non-NULL lookups in ``order_column`` order (the first ``limit`` rows), as outcome ids."""
+    from .bufferpool import Replay
+
+    lsql, lname = _log_source(wl.con, wl.info["log_source"])
+    lcols = _columns(wl.con, lsql, f"log {lname}")
+    ocol = _find(lcols, order_column, f"log {lname}")
+    v, o = quote(wl.info["log_column"]), quote(ocol)
+    count = wl.info.get("count_column")
+    w = f"{quote(_find(lcols, count, lname))}::BIGINT" if count else "1"
+    n = wl.hist.n
+    rows = wl.con.execute(
+        f"WITH lg AS (SELECT {v} AS v, {o} AS o, {w} AS w FROM {lsql} WHERE {v} IS NOT NULL ORDER BY {o} LIMIT {int(limit)}) "
+        f"SELECT CASE WHEN lg.v = kk.k THEN kk.r ELSE {n} + coalesce(kk.r, -1) + 1 END AS id, lg.w "
+        f"FROM lg ASOF LEFT JOIN {KEYS_TABLE} kk ON lg.v >= kk.k ORDER BY lg.o"
+    ).fetchnumpy()
+    ids = np.asarray(rows["id"], dtype=np.int64)
+    reps = np.asarray(rows["w"], dtype=np.int64)
+    return Replay(np.repeat(ids, reps)[: int(limit)], n)

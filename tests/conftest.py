@@ -45,6 +45,23 @@ def replay_cost(layout: Layout, hist: Histogram) -> float:
     return total / hist.total if hist.total > 0 else 0.0
 
 
+def search_path(layout: Layout, value: float) -> list[int]:
+    """Pages a search for ``value`` (a rank, or g - 0.5 for gap g) reads, root first, by walking
+    the page key lists and child slots (independent of advisor's own path helpers)."""
+    children = {(int(layout.parent[p]), int(layout.slot[p])): p for p in range(1, layout.pages)}
+    page, path = 0, []
+    while True:
+        path.append(page)
+        ks = list(layout.keys_of(page))
+        pos = bisect.bisect_left(ks, value)
+        if pos < len(ks) and ks[pos] == value:
+            return path
+        nxt = children.get((page, pos))
+        if nxt is None:
+            return path
+        page = nxt
+
+
 def brute_force_optimum(p, q, c) -> float:
     """Minimum cost over EVERY B-tree of capacity c: each range tries every key subset of size
     1..c as its root page (no full-page lemma, no forest recurrence). Returns cost / total."""

@@ -30,7 +30,7 @@ def small_db(tmp_path_factory):
     con.register("k_in", {"item_no": keys})
     con.execute("CREATE TABLE items AS SELECT item_no, item_no % 7 AS bin FROM k_in")
     con.register("l_in", {"item_no": log})
-    con.execute("CREATE TABLE probes AS SELECT * FROM l_in")
+    con.execute("CREATE TABLE probes AS SELECT item_no, row_number() OVER () AS seq FROM l_in").fetchall()
     con.close()
     return path
 
@@ -133,3 +133,22 @@ def test_demo_runs_small(tmp_path):
     assert json.loads(again.stdout)["plans"] == run["plans"] or True  # same file, same figures
     assert [p["optimized"]["expected_page_reads"] for p in json.loads(again.stdout)["plans"]] == \
         [p["optimized"]["expected_page_reads"] for p in run["plans"]]  # fmt: skip
+
+
+def test_buffer_pool_and_lru_replay(small_db):
+    res = _plan(small_db, "--json", "--keys-per-page", "20", "--order-column", "seq", "--pool-pages", "3",
+                "--pool-pages", "30")  # fmt: skip
+    run = json.loads(res.stdout)
+    (p,) = run["plans"]
+    assert [r["pool_pages"] for r in p["buffer_pool"]] == [3, 30]
+    for r in p["buffer_pool"]:
+        assert r["optimized_pinned"] <= p["optimized"]["expected_page_reads"]
+    assert run["inputs"]["replayed_lookups"] == 32_000
+    with load_workload(small_db, "items", "item_no", "probes") as wl:
+        from advisor.workload import load_replay
+
+        replay = load_replay(wl, "seq")
+        n = wl.hist.n
+        np.testing.assert_allclose(np.bincount(replay.outcomes[replay.outcomes < n], minlength=n), wl.hist.p)
+        np.testing.assert_allclose(np.bincount(replay.outcomes[replay.outcomes >= n] - n, minlength=n + 1), wl.hist.q)
+    assert "Buffer pool" in _plan(small_db, "--keys-per-page", "20").stdout

@@ -29,8 +29,13 @@ from .uniform import min_height
 
 
 
-def balanced_layout(hist: Histogram, c: int, spread: float = 0.0) -> Layout:
-    """Weight-balanced top-down layout; O(n log n)."""
+def balanced_layout(hist: Histogram, c: int, spread: float = 0.0, pick_heaviest: bool = False) -> Layout:
+    """Weight-balanced top-down layout; O(n log n).
+
+    With ``pick_heaviest``, each cut takes the heaviest key within its share of the mass (the
+    middle half-cell around the cut) instead of the key nearest the cut: still balanced, but a
+    hot key near a cut is lifted instead of a cold one.
+    """
     n = hist.n
     b = LayoutBuilder(n, c)
     if n == 0:
@@ -44,6 +49,7 @@ def balanced_layout(hist: Histogram, c: int, spread: float = 0.0) -> Layout:
     seq[1::2] = pk
     cum = np.concatenate([[0.0], np.cumsum(seq)])  # cum[t] = mass of seq[:t]
     mid = cum[1:-1:2] + pk / 2  # key k's centre in the mass axis
+    score = _key_scores(hist)
     todo = deque([(0, n, -1, -1)])
     while todo:
         lo, hi, parent, slot = todo.popleft()
@@ -51,7 +57,7 @@ def balanced_layout(hist: Histogram, c: int, spread: float = 0.0) -> Layout:
         if size <= c:
             b.add(np.arange(lo, hi), parent, slot)
             continue
-        roots = _cut_points(cum, mid, lo, hi, c)
+        roots = _cut_points(cum, mid, lo, hi, c, score if pick_heaviest else None)
         page = b.add(roots, parent, slot)
         begins = np.concatenate([[lo], roots + 1])
         ends = np.concatenate([roots, [hi]])
@@ -61,17 +67,39 @@ def balanced_layout(hist: Histogram, c: int, spread: float = 0.0) -> Layout:
     return b.build()
 
 
-def _cut_points(cum: np.ndarray, mid: np.ndarray, lo: int, hi: int, c: int) -> np.ndarray:
+def _cut_points(cum, mid, lo: int, hi: int, c: int, score=None) -> np.ndarray:
     """c distinct key ranks in [lo, hi) cutting the range's mass into near-equal parts."""
     a, z = cum[2 * lo], cum[2 * hi + 1]
     targets = a + (z - a) * np.arange(1, c + 1) / (c + 1)
     m = mid[lo:hi]
     pos = np.clip(np.searchsorted(m, targets), 1, hi - lo - 1)
     nearer_left = (targets - m[pos - 1]) <= (m[pos] - targets)
-    pick = np.unique(np.where(nearer_left, pos - 1, pos)) + lo
+    nearest = np.where(nearer_left, pos - 1, pos)
+    if score is not None:
+        half = (z - a) / (c + 1) / 4
+        w_lo = np.searchsorted(m, targets - half)
+        w_hi = np.searchsorted(m, targets + half)  # window [w_lo, w_hi) of keys
+        nearest = _window_argmax(score[lo:hi], w_lo, w_hi, nearest)
+    pick = np.unique(nearest) + lo
     if pick.size < c:
         pick = _fill(cum, mid, lo, hi, pick, c)
     return pick
+
+
+def _window_argmax(w: np.ndarray, starts: np.ndarray, stops: np.ndarray, default: np.ndarray) -> np.ndarray:
+    """Index of the largest w in each window [start, stop) (non-decreasing bounds); default if empty."""
+    out = default.copy()
+    ok = stops > starts
+    if not ok.any():
+        return out
+    s, e = starts[ok], stops[ok]
+    lengths = e - s
+    seg = np.repeat(np.arange(s.size), lengths)
+    idx = np.arange(lengths.sum()) - np.repeat(np.cumsum(lengths) - lengths, lengths) + np.repeat(s, lengths)
+    order = np.lexsort((-w[idx], seg))
+    first = np.concatenate([[0], np.cumsum(lengths)[:-1]])
+    out[ok] = idx[order[first]]
+    return out
 
 
 def _fill(cum, mid, lo, hi, pick, c):

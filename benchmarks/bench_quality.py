@@ -1,0 +1,74 @@
+"""How close the near-optimal path gets to the exact optimum where both can run.
+
+Run: .venv/bin/python benchmarks/bench_quality.py [--n 2000]
+For each seeded workload and a capacity giving the even split 3-4 levels, prints the exact
+optimum, each near-optimal construction, the planner's pick (exact forbidden) and the bounds,
+all as ratios to the optimum. Results: benchmarks/results/quality.txt.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+from gen import WORKLOADS, popularity  # noqa: E402
+
+from advisor.histogram import Histogram  # noqa: E402
+from advisor.layout import evaluate  # noqa: E402
+from advisor.optimize import heaviest_first_layout, lower_bounds, min_height, solve_exact, uniform_layout  # noqa: E402
+from advisor.planner import PlanOptions, near_candidates, plan_capacity  # noqa: E402
+
+
+def histogram(kind: str, n: int, lookups: int, seed: int = 1) -> Histogram:
+    rng = np.random.default_rng(seed)
+    prob = popularity(kind, n, rng)
+    miss = 0.10 if "misses10" in kind else 0.02
+    p = rng.multinomial(int(lookups * (1 - miss)), prob).astype(float)
+    q = rng.multinomial(int(lookups * miss), np.full(n + 1, 1.0 / (n + 1))).astype(float)
+    return Histogram(p, q)
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--n", type=int, default=2000)
+    ap.add_argument("--caps", type=int, nargs="*", default=[7, 12])
+    args = ap.parse_args()
+    n = args.n
+    names = [name for name, _ in near_candidates(Histogram(np.ones(1), np.ones(2)), 1)]
+    short = ["bal", "bal.1", "hot", "hot+1r", "hot+1e"]
+    print(f"n = {n:,}; figures are expected page reads / exact optimum - 1, in %")
+    print("columns: " + "; ".join(f"{s} = {nm}" for s, nm in zip(short, names)))
+    head = f"{'workload':<20} {'c':>3} {'h':>2} {'opt':>6} {'exact s':>7} {'even':>6} {'greedy':>7} " + \
+           " ".join(f"{s:>7}" for s in short) + f" {'planner':>8} {'plan s':>6} {'bound':>6} {'entropy':>8}"  # fmt: skip
+    print(head)
+    print("-" * len(head))
+    for kind in WORKLOADS:
+        for c in args.caps:
+            h = histogram(kind, n, 100 * n)
+            t0 = time.perf_counter()
+            opt = solve_exact(h, c).objective
+            t_exact = time.perf_counter() - t0
+            rel = lambda x: 100 * (x / opt - 1)  # noqa: E731
+            cells = [rel(evaluate(build(), h).expected_page_reads) for _, build in near_candidates(h, c)]
+            t0 = time.perf_counter()
+            plan = plan_capacity(h, c, options=PlanOptions(exact_max_ops=0))
+            t_plan = time.perf_counter() - t0
+            b = lower_bounds(h, c)
+            print(
+                f"{kind:<20} {c:>3} {min_height(n, c):>2} {opt:>6.3f} {t_exact:>7.1f} "
+                f"{rel(evaluate(uniform_layout(n, c), h).expected_page_reads):>6.1f} "
+                f"{rel(evaluate(heaviest_first_layout(h, c), h).expected_page_reads):>7.1f} "
+                + " ".join(f"{x:>7.1f}" for x in cells)
+                + f" {rel(plan.recommended_cost.expected_page_reads):>8.2f} {t_plan:>6.2f} "
+                f"{rel(b['level_capacity']):>6.1f} {rel(b['entropy']):>8.1f}",
+                flush=True,
+            )
+
+
+if __name__ == "__main__":
+    main()
