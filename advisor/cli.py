@@ -27,6 +27,7 @@ from .serialize import run_dict
 from .report import render_run
 from .workload import load_replay, load_workload
 from .bufferpool import pool_figures
+from .pagesize import PROFILES, StorageProfile, default_pool_bytes, page_size_table
 from .errors import SettingInvalid
 
 app = typer.Typer(
@@ -79,7 +80,8 @@ ForceOpt = Annotated[bool, typer.Option("--force", help="Replace an existing exp
 
 
 def _run(database, table, key, log, settings, as_json, export, export_for, force, log_column=None, count_column=None,
-         distinct_keys=False, pool_pages=None, order_column=None, replay_limit=1_000_000):  # fmt: skip
+         distinct_keys=False, pool_pages=None, order_column=None, replay_limit=1_000_000, storage=None,
+         pool_bytes=None):  # fmt: skip
     stdout = Console(highlight=False)
     if export is not None:
         check_destination(export)
@@ -107,6 +109,8 @@ def _run(database, table, key, log, settings, as_json, export, export_for, force
                 raise SettingInvalid("--order-column needs --log")
             replay = load_replay(wl, order_column, replay_limit)
         pools = [pool_figures(p.uniform, p.recommended, wl.hist, replay, pool_pages) for p in plans]
+        profile = storage if storage is not None else PROFILES["nvme"]
+        choice = page_size_table(plans, wl.hist, profile, pool_bytes or default_pool_bytes(plans))
         written: list[str] = []
         if export is not None:
             targets_out = export_paths(export, plans, export_for)
@@ -121,11 +125,26 @@ def _run(database, table, key, log, settings, as_json, export, export_for, force
             "replayed_lookups": int(replay.outcomes.size) if replay is not None else None,
         }  # fmt: skip
         run = run_dict(wl.hist, plans, inputs, written, pools)
+        if choice["rows"]:
+            run["page_size_choice"] = choice
         run["timings"] = {"histogram_seconds": round(t_hist, 3), "total_seconds": round(time.perf_counter() - t0, 3)}
     if as_json:
         print(json.dumps(run, indent=2, default=str))
     else:
         stdout.print(render_run(run))
+
+
+def parse_storage(text: str) -> StorageProfile:
+    """A named profile, or 'latency_us,mb_per_s' for a custom one."""
+    if text in PROFILES:
+        return PROFILES[text]
+    try:
+        lat, bw = (float(x) for x in text.split(","))
+    except ValueError:
+        raise SettingInvalid(f"--storage must be one of {', '.join(PROFILES)} or LATENCY_US,MB_PER_S, got {text!r}") from None
+    if lat < 0 or bw <= 0:
+        raise SettingInvalid("--storage latency must be >= 0 and bandwidth > 0")
+    return StorageProfile("custom", lat, bw)
 
 
 @app.command("plan")
@@ -150,13 +169,15 @@ def plan_cmd(
     pool_pages: Annotated[Optional[list[int]], typer.Option("--pool-pages", help="Buffer pool size in pages (repeatable; default 0.1% to 10% of the index).", min=1)] = None,
     order_column: Annotated[Optional[str], typer.Option("--order-column", help="Log column giving lookup order (time or sequence): enables the LRU replay.")] = None,
     replay_limit: Annotated[int, typer.Option("--replay-limit", help="Replay at most this many lookups (the earliest).", min=1)] = 1_000_000,
+    storage: Annotated[str, typer.Option("--storage", help="Storage profile for the page-size choice: nvme, sata-ssd, network-disk, hdd, or LATENCY_US,MB_PER_S.")] = "nvme",
+    pool_bytes: Annotated[Optional[int], typer.Option("--pool-bytes", help="Buffer pool bytes for the page-size choice (default: 1% of the index).", min=1)] = None,
 ) -> None:
     """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
     with _guard():
         settings = PageSettings(list(page_size or []), list(keys_per_page or []), page_header, record_pointer,
                                 child_pointer, key_bytes)  # fmt: skip
         _run(database, table, key, log, settings, as_json, export, export_for, force, log_column, count_column,
-             distinct_keys, pool_pages, order_column, replay_limit)  # fmt: skip
+             distinct_keys, pool_pages, order_column, replay_limit, parse_storage(storage), pool_bytes)  # fmt: skip
 
 
 @app.command("demo")

@@ -116,6 +116,27 @@ def pool_table(run: dict) -> Table | None:
     return t
 
 
+def page_size_panel(run: dict) -> Table | None:
+    ch = run.get("page_size_choice")
+    if not ch:
+        return None
+    pr = ch["profile"]
+    t = Table(title=f"Page size choice on {pr['name']} storage ({pr['latency_us']:g} µs per read + "
+                    f"{pr['bandwidth_mb_s']:g} MB/s; a rough common-practice profile)", title_justify="left")  # fmt: skip
+    for name in ("page bytes", "µs per read", "even µs", "advised µs", f"pool pages", "even µs, pool", "advised µs, pool"):
+        t.add_column(name, justify="right")
+    for r in ch["rows"]:
+        mark = lambda size, key: " ◀" if size == ch[key] else ""  # noqa: E731
+        t.add_row(f"{r['page_size']:,}", f"{r['read_us']:.1f}", f"{r['uniform_us']:.1f}",
+                  f"[bold]{r['optimized_us']:.1f}[/bold]{mark(r['page_size'], 'best_page_size')}", f"{r['pool_pages']:,}",
+                  f"{r['uniform_with_pool_us']:.1f}",
+                  f"[bold]{r['optimized_with_pool_us']:.1f}[/bold]{mark(r['page_size'], 'best_page_size_with_pool')}")  # fmt: skip
+    t.caption = (f"time per lookup = page reads × (latency + page size / bandwidth); pool: {ch['pool_bytes']:,} bytes "
+                 f"pinned with the most-read pages; ◀ = fastest")  # fmt: skip
+    t.caption_justify = "left"
+    return t
+
+
 def method_notes(run: dict) -> Text:
     lines = []
     for p in run["plans"]:
@@ -152,6 +173,9 @@ def render_run(run: dict) -> Group:
         pools = pool_table(run)
         if pools is not None:
             parts.append(pools)
+        sizes = page_size_panel(run)
+        if sizes is not None:
+            parts.append(sizes)
         parts.append(method_notes(run))
     e = export_text(run)
     if e is not None:
