@@ -7,7 +7,9 @@ internal error; 130 interrupted.
 
 from __future__ import annotations
 
+import io
 import json
+import os
 import sys
 import time
 from contextlib import contextmanager
@@ -28,7 +30,7 @@ from .report import render_run
 from .workload import load_replay, load_workload
 from .bufferpool import pool_figures
 from .pagesize import PROFILES, StorageProfile, default_pool_bytes, page_size_table
-from .errors import SettingInvalid
+from .errors import OutputRefused, SettingInvalid
 
 app = typer.Typer(
     add_completion=False,
@@ -76,15 +78,41 @@ KppOpt = Annotated[Optional[list[int]], typer.Option("--keys-per-page", help="Ca
 JsonOpt = Annotated[bool, typer.Option("--json", help="Print one JSON object on stdout instead of the report.")]
 ExportOpt = Annotated[Optional[Path], typer.Option("--export", help="Write the recommended pages and their keys (.csv, .json, .parquet, .duckdb).")]
 ExportForOpt = Annotated[Optional[int], typer.Option("--export-for", help="Export only the plan for this page size (or keys per page).")]
-ForceOpt = Annotated[bool, typer.Option("--force", help="Replace an existing export file.")]
+ForceOpt = Annotated[bool, typer.Option("--force", help="Replace an existing export or picture file.")]
+SvgOpt = Annotated[Optional[Path], typer.Option("--svg", help="Also save the whole report as an SVG picture.")]
+HtmlOpt = Annotated[Optional[Path], typer.Option("--html", help="Also save the whole report as an HTML page.")]
+
+
+def save_pictures(run: dict, svg: Path | None, html: Path | None, replace: bool) -> None:
+    """Render the report on a recording console and save it as SVG and/or HTML, atomically."""
+    console = Console(record=True, width=110, file=io.StringIO(), force_terminal=True)
+    console.print(render_run(run))
+    for path, kind in ((svg, "svg"), (html, "html")):
+        if path is None:
+            continue
+        tmp = path.with_name(f".{path.name}.{os.getpid()}.partial")
+        try:
+            if kind == "svg":
+                console.save_svg(str(tmp), title="advisor report", clear=False)
+            else:
+                console.save_html(str(tmp), clear=False)
+            os.replace(tmp, path)
+        finally:
+            tmp.unlink(missing_ok=True)
 
 
 def _run(database, table, key, log, settings, as_json, export, export_for, force, log_column=None, count_column=None,
          distinct_keys=False, pool_pages=None, order_column=None, replay_limit=1_000_000, storage=None,
-         pool_bytes=None):  # fmt: skip
+         pool_bytes=None, svg=None, html=None):  # fmt: skip
     stdout = Console(highlight=False)
     if export is not None:
         check_destination(export)
+    for picture in (svg, html):
+        if picture is not None:
+            if picture.exists() and not force:
+                raise OutputRefused(f"{picture} exists; pass --force to replace it")
+            if not picture.parent.exists():
+                raise OutputRefused(f"directory {picture.parent} does not exist")
     t0 = time.perf_counter()
     with load_workload(database, table, key, log, log_column, count_column, distinct_keys) as wl:
         t_hist = time.perf_counter() - t0
@@ -132,6 +160,8 @@ def _run(database, table, key, log, settings, as_json, export, export_for, force
         print(json.dumps(run, indent=2, default=str))
     else:
         stdout.print(render_run(run))
+    if svg or html:
+        save_pictures(run, svg, html, force)
 
 
 def parse_storage(text: str) -> StorageProfile:
@@ -171,13 +201,15 @@ def plan_cmd(
     replay_limit: Annotated[int, typer.Option("--replay-limit", help="Replay at most this many lookups (the earliest).", min=1)] = 1_000_000,
     storage: Annotated[str, typer.Option("--storage", help="Storage profile for the page-size choice: nvme, sata-ssd, network-disk, hdd, or LATENCY_US,MB_PER_S.")] = "nvme",
     pool_bytes: Annotated[Optional[int], typer.Option("--pool-bytes", help="Buffer pool bytes for the page-size choice (default: 1% of the index).", min=1)] = None,
+    svg: SvgOpt = None,
+    html: HtmlOpt = None,
 ) -> None:
     """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
     with _guard():
         settings = PageSettings(list(page_size or []), list(keys_per_page or []), page_header, record_pointer,
                                 child_pointer, key_bytes)  # fmt: skip
         _run(database, table, key, log, settings, as_json, export, export_for, force, log_column, count_column,
-             distinct_keys, pool_pages, order_column, replay_limit, parse_storage(storage), pool_bytes)  # fmt: skip
+             distinct_keys, pool_pages, order_column, replay_limit, parse_storage(storage), pool_bytes, svg, html)  # fmt: skip
 
 
 @app.command("demo")
@@ -191,13 +223,15 @@ def demo_cmd(
     as_json: JsonOpt = False,
     export: ExportOpt = None,
     force: ForceOpt = False,
+    svg: SvgOpt = None,
+    html: HtmlOpt = None,
 ) -> None:
     """Build the invented demo catalogue (once per seed) and print the full report on it."""
     with _guard():
         db = build_demo(directory, seed=seed, keys=keys, lookups=lookups)
         settings = PageSettings(list(page_size or []), list(keys_per_page or []))
         _run(db, DEMO_TABLE, DEMO_KEY, DEMO_LOG, settings, as_json, export, None, force,
-             order_column="lookup_seq", replay_limit=300_000)  # fmt: skip
+             order_column="lookup_seq", replay_limit=300_000, svg=svg, html=html)  # fmt: skip
 
 
 def main() -> None:  # pragma: no cover - console script entry

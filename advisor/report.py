@@ -137,6 +137,43 @@ def page_size_panel(run: dict) -> Table | None:
     return t
 
 
+BAR_WIDTH = 16
+
+
+def _bar(value: float, top: float, style: str) -> Text:
+    """A horizontal bar of block characters, value scaled to ``top`` over BAR_WIDTH cells."""
+    cells = 0.0 if top <= 0 else BAR_WIDTH * value / top
+    full = int(cells)
+    part = " ▏▎▍▌▋▊▉"[int((cells - full) * 8)] if full < BAR_WIDTH else ""
+    return Text("█" * full + part.strip(), style=style)
+
+
+def charts(run: dict) -> Table | None:
+    """Bars: share of lookups answered at each depth, and misses per lookup against pool size."""
+    if not run["plans"]:
+        return None
+    t = Table(title="Pictures: share answered at each depth; page misses per lookup by pool size (pinned)", title_justify="left", show_lines=False)
+    t.add_column("c", justify="right")
+    t.add_column("depth / pool pages", justify="left", no_wrap=True)
+    t.add_column("even split", justify="left", no_wrap=True)
+    t.add_column("advised", justify="left", no_wrap=True)
+    for p in run["plans"]:
+        first = True
+        u, o = p["uniform"]["answered_at_depth"], p["optimized"]["answered_at_depth"]
+        for d in range(max(len(u), len(o))):
+            a, b = (u[d] if d < len(u) else 0.0), (o[d] if d < len(o) else 0.0)
+            t.add_row(str(p["keys_per_page"]) if first else "", f"depth {d + 1}",
+                      _bar(a, 1.0, "grey58") + Text(f" {_pct(a)}"), _bar(b, 1.0, "green") + Text(f" {_pct(b)}"))  # fmt: skip
+            first = False
+        rows = p.get("buffer_pool", [])
+        top = max([r["uniform_pinned"] for r in rows] + [r["optimized_pinned"] for r in rows] + [1e-12])
+        for i, r in enumerate(rows):
+            a, b = r["uniform_pinned"], r["optimized_pinned"]
+            t.add_row("", f"pool {r['pool_pages']:,}", _bar(a, top, "grey58") + Text(f" {a:.3f}"),
+                      _bar(b, top, "green") + Text(f" {b:.3f}"), end_section=i == len(rows) - 1)  # fmt: skip
+    return t
+
+
 def method_notes(run: dict) -> Text:
     lines = []
     for p in run["plans"]:
@@ -176,6 +213,9 @@ def render_run(run: dict) -> Group:
         sizes = page_size_panel(run)
         if sizes is not None:
             parts.append(sizes)
+        pictures = charts(run)
+        if pictures is not None:
+            parts.append(pictures)
         parts.append(method_notes(run))
     e = export_text(run)
     if e is not None:

@@ -1,0 +1,63 @@
+"""The report at a fixed width: sections, the charts' bars, and the saved SVG/HTML pictures."""
+
+from __future__ import annotations
+
+import io
+import re
+
+import numpy as np
+from rich.console import Console
+from typer.testing import CliRunner
+
+from advisor.bufferpool import pool_figures
+from advisor.cli import app
+from advisor.histogram import Histogram
+from advisor.planner import plan_capacity
+from advisor.report import BAR_WIDTH, render_run
+from advisor.serialize import run_dict
+
+
+def _render(run, width=100):
+    console = Console(width=width, file=io.StringIO(), color_system=None)
+    console.print(render_run(run))
+    return console.file.getvalue()
+
+
+def _run():
+    p = np.zeros(50)
+    p[7] = 100.0  # one key takes all traffic: advised puts it at the root
+    hist = Histogram(p, np.zeros(51))
+    plan = plan_capacity(hist, 2)
+    return run_dict(hist, [plan], {"database": "x"}, [], [pool_figures(plan.uniform, plan.recommended, hist, None, [1, 2])])
+
+
+def test_chart_bars_have_the_right_length():
+    run = _run()
+    text = _render(run)
+    assert run["plans"][0]["optimized"]["answered_at_depth"][0] == 1.0
+    line = next(l for l in text.splitlines() if "depth 1 " in l)
+    cells = [c for c in line.split("│") if c.strip()]
+    even, advised = cells[-2], cells[-1]
+    assert "█" * BAR_WIDTH in advised and "100.0%" in advised  # everything answered at the root
+    assert "█" not in even  # the even split answers nothing at its root here
+    for section in ("Traffic profile", "Page reads per lookup", "Buffer pool", "Pictures", "copy"):
+        assert section in text
+
+
+def test_report_is_stable_at_a_fixed_width():
+    a, b = _render(_run(), 90), _render(_run(), 90)
+    assert a == b
+    assert max(len(line) for line in a.splitlines()) <= 90
+
+
+def test_svg_and_html_pictures(tmp_path):
+    runner = CliRunner()
+    svg, html = tmp_path / "r.svg", tmp_path / "r.html"
+    args = ["demo", "--dir", str(tmp_path), "--keys", "2000", "--lookups", "10000", "--svg", str(svg), "--html", str(html)]
+    res = runner.invoke(app, args)
+    assert res.exit_code == 0, res.stderr
+    assert svg.read_text().startswith("<svg") and "Traffic" in svg.read_text()
+    assert "<html" in html.read_text().lower() and "Traffic" in html.read_text()
+    again = runner.invoke(app, args)
+    assert again.exit_code == 7 and "--force" in again.stderr
+    assert not list(tmp_path.glob(".*partial*"))
