@@ -27,7 +27,9 @@ from .errors import AdvisorError
 from .export import check_destination, check_target, write_layout
 from .serialize import run_dict
 from .report import render_run
-from .workload import load_replay, load_workload
+from .workload import load_replay, load_split, load_workload
+from .holdout import holdout_rows
+from .planner import PlanOptions
 from .bufferpool import pool_figures
 from .pagesize import PROFILES, StorageProfile, default_pool_bytes, page_size_table
 from .errors import OutputRefused, SettingInvalid
@@ -103,7 +105,7 @@ def save_pictures(run: dict, svg: Path | None, html: Path | None, replace: bool)
 
 def _run(database, table, key, log, settings, as_json, export, export_for, force, log_column=None, count_column=None,
          distinct_keys=False, pool_pages=None, order_column=None, replay_limit=1_000_000, storage=None,
-         pool_bytes=None, svg=None, html=None):  # fmt: skip
+         pool_bytes=None, svg=None, html=None, holdout=0.2, smoothing=0.0):  # fmt: skip
     stdout = Console(highlight=False)
     if export is not None:
         check_destination(export)
@@ -129,7 +131,7 @@ def _run(database, table, key, log, settings, as_json, export, export_for, force
             def on_plan(i: int, step: str) -> None:
                 bar.update(task, completed=i, description=f"c={unique[i][0]}: {step}")
 
-            plans = advise(wl.hist, unique, on_plan=on_plan)
+            plans = advise(wl.hist, unique, PlanOptions(smoothing=smoothing), on_plan=on_plan)
             bar.update(task, completed=len(unique))
         replay = None
         if order_column:
@@ -137,6 +139,12 @@ def _run(database, table, key, log, settings, as_json, export, export_for, force
                 raise SettingInvalid("--order-column needs --log")
             replay = load_replay(wl, order_column, replay_limit)
         pools = [pool_figures(p.uniform, p.recommended, wl.hist, replay, pool_pages) for p in plans]
+        held = None
+        if order_column and holdout > 0:
+            train, test = load_split(wl, order_column, holdout)
+            alphas = [0.0] + ([smoothing] if smoothing > 0 else [])
+            held = {"fraction": holdout, "train_lookups": train.total, "test_lookups": test.total,
+                    "rows": holdout_rows(train, test, unique, alphas)}  # fmt: skip
         profile = storage if storage is not None else PROFILES["nvme"]
         choice = page_size_table(plans, wl.hist, profile, pool_bytes or default_pool_bytes(plans))
         written: list[str] = []
@@ -155,6 +163,8 @@ def _run(database, table, key, log, settings, as_json, export, export_for, force
         run = run_dict(wl.hist, plans, inputs, written, pools)
         if choice["rows"]:
             run["page_size_choice"] = choice
+        if held is not None:
+            run["holdout"] = held
         run["timings"] = {"histogram_seconds": round(t_hist, 3), "total_seconds": round(time.perf_counter() - t0, 3)}
     if as_json:
         print(json.dumps(run, indent=2, default=str))
@@ -203,13 +213,16 @@ def plan_cmd(
     pool_bytes: Annotated[Optional[int], typer.Option("--pool-bytes", help="Buffer pool bytes for the page-size choice (default: 1% of the index).", min=1)] = None,
     svg: SvgOpt = None,
     html: HtmlOpt = None,
+    holdout: Annotated[float, typer.Option("--holdout", help="With --order-column: share of the latest lookups held out to judge a plan fitted on the rest (0 turns it off).", min=0.0, max=0.9)] = 0.2,
+    smoothing: Annotated[float, typer.Option("--smoothing", help="Blend the fitted histogram with uniform weight: 0 none .. 1 all uniform.", min=0.0, max=1.0)] = 0.0,
 ) -> None:
     """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
     with _guard():
         settings = PageSettings(list(page_size or []), list(keys_per_page or []), page_header, record_pointer,
                                 child_pointer, key_bytes)  # fmt: skip
         _run(database, table, key, log, settings, as_json, export, export_for, force, log_column, count_column,
-             distinct_keys, pool_pages, order_column, replay_limit, parse_storage(storage), pool_bytes, svg, html)  # fmt: skip
+             distinct_keys, pool_pages, order_column, replay_limit, parse_storage(storage), pool_bytes, svg, html,
+             holdout, smoothing)  # fmt: skip
 
 
 @app.command("demo")

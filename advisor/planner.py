@@ -73,6 +73,7 @@ class PlanOptions:
     exact_max_ops: float = EXACT_MAX_OPS
     exact_max_bytes: float = EXACT_MAX_BYTES
     polish_ops: float = 3e8  # exact DP work spent re-solving small subtrees of a near plan
+    smoothing: float = 0.0  # plan on hist.smoothed(smoothing); costs are always on the raw histogram
     check: bool = True
     extra: dict = field(default_factory=dict)
 
@@ -87,6 +88,7 @@ def plan_capacity(
     """Plan one capacity ``c``: exact when affordable, else near-optimal with a bound."""
     opts = options or PlanOptions()
     step = on_step or (lambda _s: None)
+    fit = hist.smoothed(opts.smoothing)  # the weights the layout is fitted to
     t0 = time.perf_counter()
     uni = uniform_layout(hist.n, c)
     uni_cost = evaluate(uni, hist)
@@ -97,23 +99,27 @@ def plan_capacity(
         best, best_cost, method, proven = uni, uni_cost, "no lookups: even split kept", True
     elif ops <= opts.exact_max_ops and mem <= opts.exact_max_bytes:
         step("exact")
-        res = solve_exact(hist, c)
-        best, method, proven, dp_objective = res.layout, "exact DP", True, res.objective
+        res = solve_exact(fit, c)
+        best, method, proven = res.layout, "exact DP", opts.smoothing <= 0
+        dp_objective = res.objective if opts.smoothing <= 0 else None
         best_cost = evaluate(best, hist)
+        if opts.smoothing > 0:
+            method += f" on smoothed weights (alpha {opts.smoothing:g})"
     else:
-        best, best_cost, method = uni, uni_cost, "even split (nothing better found)"
-        for name, build in near_candidates(hist, c):
+        best, best_cost, method = uni, evaluate(uni, fit), "even split (nothing better found)"
+        for name, build in near_candidates(fit, c):
             step(name)
             cand = build()
-            cost = evaluate(cand, hist)
+            cost = evaluate(cand, fit)
             if cost.expected_page_reads < best_cost.expected_page_reads:
                 best, best_cost, method = cand, cost, name
         if opts.polish_ops > 0 and best is not uni:
             step("exact re-solve of small subtrees")
-            polished = polish(best, hist, opts.polish_ops)
-            cost = evaluate(polished, hist)
+            polished = polish(best, fit, opts.polish_ops)
+            cost = evaluate(polished, fit)
             if cost.expected_page_reads < best_cost.expected_page_reads:
                 best, best_cost, method = polished, cost, method + " + exact small subtrees"
+        best_cost = evaluate(best, hist)
         proven = False
     if opts.check:
         check_layout(best)

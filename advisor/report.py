@@ -137,6 +137,23 @@ def page_size_panel(run: dict) -> Table | None:
     return t
 
 
+def holdout_table(run: dict) -> Table | None:
+    h = run.get("holdout")
+    if not h:
+        return None
+    t = Table(title=f"Held-out check: fitted on the earliest {100 * (1 - h['fraction']):.0f}% of the log, "
+                    f"judged on the latest {100 * h['fraction']:.0f}%", title_justify="left")  # fmt: skip
+    for name in ("c", "smoothing", "fit: even", "fit: advised", "fit: saved", "later: even", "later: advised", "later: saved"):
+        t.add_column(name, justify="right")
+    for r in h["rows"]:
+        i, o = r["in_sample"], r["held_out"]
+        t.add_row(str(r["keys_per_page"]), f"{r['smoothing']:g}", f"{i['uniform']:.3f}", f"{i['optimized']:.3f}",
+                  _pct(i["saving"]), f"{o['uniform']:.3f}", f"{o['optimized']:.3f}", f"[bold]{_pct(o['saving'])}[/bold]")  # fmt: skip
+    t.caption = "page reads per lookup; a large drop from fit to later savings means the plan overfits its sample"
+    t.caption_justify = "left"
+    return t
+
+
 BAR_WIDTH = 16
 
 
@@ -210,6 +227,9 @@ def render_run(run: dict) -> Group:
         pools = pool_table(run)
         if pools is not None:
             parts.append(pools)
+        held = holdout_table(run)
+        if held is not None:
+            parts.append(held)
         sizes = page_size_panel(run)
         if sizes is not None:
             parts.append(sizes)

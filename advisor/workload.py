@@ -213,27 +213,50 @@ def _load(con, table, key, log, log_column, count_column, distinct_keys) -> Work
         weight = _checked_count(con, lsql, ccol, lcols[ccol], lname)
     v = quote(vcol)
     info |= {"log_column": vcol, "log_type": lcols[vcol], "count_column": count_column, "log_source": log}
+    info["weight_sql"] = weight
     probes = f"SELECT {v} AS v, sum({weight})::DOUBLE AS w FROM {lsql} GROUP BY {v}"
     try:
-        agg = con.execute(
-            f"WITH probes AS ({probes}) "
-            f"SELECT coalesce(kk.r, -1) AS r, coalesce(p.v = kk.k, false) AS hit, sum(p.w) AS w "
-            f"FROM probes p ASOF LEFT JOIN {KEYS_TABLE} kk ON p.v >= kk.k "
-            f"WHERE p.v IS NOT NULL GROUP BY ALL"
-        ).fetchnumpy()
+        p, q = _aggregate(con, probes, n)
         nulls = con.execute(f"SELECT coalesce(sum({weight})::DOUBLE, 0) FROM {lsql} WHERE {v} IS NULL").fetchall()[0][0]
     except (duckdb.BinderException, duckdb.ConversionException) as e:
         raise InputInvalid(
             f"log column {vcol!r} ({lcols[vcol]}) cannot be compared with key column {kcol!r} ({ktype}): "
             f"{_first_line(str(e))}"
         ) from None
+    hist = Histogram(p.astype(np.float64), q.astype(np.float64), float(nulls))
+    return Workload(con, hist, ktype, key_bytes, table, kcol, lname, info)
+
+
+def _aggregate(con, probes_sql: str, n: int) -> tuple[np.ndarray, np.ndarray]:
+    """Hit and gap weights from a (v, w) probes query: ASOF join to the ranked keys, grouped."""
+    agg = con.execute(
+        f"WITH probes AS ({probes_sql}) "
+        f"SELECT coalesce(kk.r, -1) AS r, coalesce(p.v = kk.k, false) AS hit, sum(p.w) AS w "
+        f"FROM probes p ASOF LEFT JOIN {KEYS_TABLE} kk ON p.v >= kk.k "
+        f"WHERE p.v IS NOT NULL GROUP BY ALL"
+    ).fetchnumpy()
     r = np.asarray(agg["r"], dtype=np.int64)
     hit = np.asarray(agg["hit"], dtype=bool)
     w = np.asarray(agg["w"], dtype=np.float64)
     p = np.bincount(r[hit], weights=w[hit], minlength=n)[:n] if n else np.zeros(0)
     q = np.bincount(r[~hit] + 1, weights=w[~hit], minlength=n + 1)[: n + 1]
-    hist = Histogram(p.astype(np.float64), q.astype(np.float64), float(nulls))
-    return Workload(con, hist, ktype, key_bytes, table, kcol, lname, info)
+    return p.astype(np.float64), q.astype(np.float64)
+
+
+def load_split(wl: Workload, order_column: str, holdout: float) -> tuple[Histogram, Histogram]:
+    """Histograms of the earlier (1 - holdout) and the later ``holdout`` share of the log's rows,
+    by ``order_column`` (ties broken by DuckDB's sort)."""
+    lsql, lname = _log_source(wl.con, wl.info["log_source"])
+    lcols = _columns(wl.con, lsql, f"log {lname}")
+    o = quote(_find(lcols, order_column, f"log {lname}"))
+    v, w = quote(wl.info["log_column"]), wl.info["weight_sql"]
+    ranked = f"SELECT {v} AS v, {w} AS w, percent_rank() OVER (ORDER BY {o}) AS pr FROM {lsql}"
+    out = []
+    for cond in (f"pr < {1 - holdout}", f"pr >= {1 - holdout}"):
+        probes = f"SELECT v, sum(w)::DOUBLE AS w FROM ({ranked}) WHERE {cond} GROUP BY v"
+        p, q = _aggregate(wl.con, probes, wl.hist.n)
+        out.append(Histogram(p, q))
+    return out[0], out[1]
 
 
 def _checked_count(con, lsql: str, col: str, ctype: str, lname: str) -> str:
@@ -267,8 +290,7 @@ def load_replay(wl: Workload, order_column: str, limit: int = 1_000_000):
     lcols = _columns(wl.con, lsql, f"log {lname}")
     ocol = _find(lcols, order_column, f"log {lname}")
     v, o = quote(wl.info["log_column"]), quote(ocol)
-    count = wl.info.get("count_column")
-    w = f"{quote(_find(lcols, count, lname))}::BIGINT" if count else "1"
+    w = f"({wl.info['weight_sql']})::BIGINT"
     n = wl.hist.n
     rows = wl.con.execute(
         f"WITH lg AS (SELECT {v} AS v, {o} AS o, {w} AS w FROM {lsql} WHERE {v} IS NOT NULL ORDER BY {o} LIMIT {int(limit)}) "
