@@ -27,7 +27,8 @@ from .errors import AdvisorError
 from .export import check_destination, check_target, write_layout
 from .serialize import run_dict
 from .report import render_run
-from .workload import load_replay, load_split, load_workload
+from .workload import load_replay, load_scans, load_split, load_workload
+from .scans import scan_figures
 from .holdout import holdout_rows
 from .planner import PlanOptions
 from .bufferpool import pool_figures
@@ -105,7 +106,7 @@ def save_pictures(run: dict, svg: Path | None, html: Path | None, replace: bool)
 
 def _run(database, table, key, log, settings, as_json, export, export_for, force, log_column=None, count_column=None,
          distinct_keys=False, pool_pages=None, order_column=None, replay_limit=1_000_000, storage=None,
-         pool_bytes=None, svg=None, html=None, holdout=0.2, smoothing=0.0):  # fmt: skip
+         pool_bytes=None, svg=None, html=None, holdout=0.2, smoothing=0.0, scan_to=None):  # fmt: skip
     stdout = Console(highlight=False)
     if export is not None:
         check_destination(export)
@@ -139,6 +140,12 @@ def _run(database, table, key, log, settings, as_json, export, export_for, force
                 raise SettingInvalid("--order-column needs --log")
             replay = load_replay(wl, order_column, replay_limit)
         pools = [pool_figures(p.uniform, p.recommended, wl.hist, replay, pool_pages) for p in plans]
+        scans = None
+        if scan_to:
+            if not log:
+                raise SettingInvalid("--scan-to needs --log")
+            first, last, weight, points = load_scans(wl, scan_to)
+            scans = [scan_figures(p, points, first, last, weight) for p in plans]
         held = None
         if order_column and holdout > 0:
             train, test = load_split(wl, order_column, holdout)
@@ -165,6 +172,9 @@ def _run(database, table, key, log, settings, as_json, export, export_for, force
             run["page_size_choice"] = choice
         if held is not None:
             run["holdout"] = held
+        if scans is not None:
+            for entry, figures in zip(run["plans"], scans):
+                entry["range_scans"] = figures
         run["timings"] = {"histogram_seconds": round(t_hist, 3), "total_seconds": round(time.perf_counter() - t0, 3)}
     if as_json:
         print(json.dumps(run, indent=2, default=str))
@@ -215,6 +225,7 @@ def plan_cmd(
     html: HtmlOpt = None,
     holdout: Annotated[float, typer.Option("--holdout", help="With --order-column: share of the latest lookups held out to judge a plan fitted on the rest (0 turns it off).", min=0.0, max=0.9)] = 0.2,
     smoothing: Annotated[float, typer.Option("--smoothing", help="Blend the fitted histogram with uniform weight: 0 none .. 1 all uniform.", min=0.0, max=1.0)] = 0.0,
+    scan_to: Annotated[Optional[str], typer.Option("--scan-to", help="Log column with a range scan's upper bound; rows where it is set scan from the looked-up value to it.")] = None,
 ) -> None:
     """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
     with _guard():
@@ -222,7 +233,7 @@ def plan_cmd(
                                 child_pointer, key_bytes)  # fmt: skip
         _run(database, table, key, log, settings, as_json, export, export_for, force, log_column, count_column,
              distinct_keys, pool_pages, order_column, replay_limit, parse_storage(storage), pool_bytes, svg, html,
-             holdout, smoothing)  # fmt: skip
+             holdout, smoothing, scan_to)  # fmt: skip
 
 
 @app.command("demo")

@@ -237,3 +237,34 @@ def page_traffic(layout: Layout, hist: Histogram) -> np.ndarray:
         at = np.nonzero(depth == d)[0]
         np.add.at(acc, layout.parent[at], acc[at])
     return acc
+
+
+def scan_pages(layout: Layout, first: np.ndarray, last: np.ndarray) -> np.ndarray:
+    """Pages a range scan touches, per scan over key ranks first..last (inclusive).
+
+    A scan descends to its first key and walks the keys in order; it reads every page holding a
+    key of the range and every ancestor of those pages (to reach a child page its parent's
+    pointer must be read), each page once. That includes the path to the first key. (Every
+    page on that path holding no key of the range is an ancestor of the first key's page, but
+    the converse fails: an ancestor whose own subtree starts inside the range is read too, so
+    "path to the first key plus the pages holding its keys" would undercount.) A scan with no
+    key in range (first > last) costs what a miss in gap ``first`` costs.
+    """
+    n = layout.n_keys
+    out = np.zeros(first.size, dtype=np.int64)
+    if n == 0 or first.size == 0:
+        return out
+    depth = layout.depths()
+    key_page, gap_page = end_pages(layout)
+    empty = first > last
+    out[empty] = depth[gap_page[np.clip(first[empty], 0, n)]]
+    parent = layout.parent
+    for i in np.nonzero(~empty)[0]:
+        level = np.unique(key_page[int(first[i]) : int(last[i]) + 1])
+        seen = [level]
+        while level.size:
+            level = np.unique(parent[level])
+            level = level[level >= 0]
+            seen.append(level)
+        out[i] = np.unique(np.concatenate(seen)).size
+    return out

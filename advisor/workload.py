@@ -300,3 +300,26 @@ def load_replay(wl: Workload, order_column: str, limit: int = 1_000_000):
     ids = np.asarray(rows["id"], dtype=np.int64)
     reps = np.asarray(rows["w"], dtype=np.int64)
     return Replay(np.repeat(ids, reps)[: int(limit)], n)
+
+
+def load_scans(wl: Workload, scan_to: str) -> tuple[np.ndarray, np.ndarray, np.ndarray, Histogram]:
+    """Range scans (first rank, last rank, weight) from log rows whose ``scan_to`` is not NULL,
+    and the histogram of the point lookups alone (rows where it is NULL)."""
+    lsql, lname = _log_source(wl.con, wl.info["log_source"])
+    lcols = _columns(wl.con, lsql, f"log {lname}")
+    hi = quote(_find(lcols, scan_to, f"log {lname}"))
+    v, w = quote(wl.info["log_column"]), wl.info["weight_sql"]
+    scans = (f"SELECT {v} AS lo, {hi} AS hi, sum({w})::DOUBLE AS w FROM {lsql} "
+             f"WHERE {v} IS NOT NULL AND {hi} IS NOT NULL GROUP BY ALL")  # fmt: skip
+    rows = wl.con.execute(
+        f"WITH s AS ({scans}), "
+        f"a AS (SELECT s.*, CASE WHEN kk.k = s.lo THEN kk.r ELSE coalesce(kk.r, -1) + 1 END AS first "
+        f"      FROM s ASOF LEFT JOIN {KEYS_TABLE} kk ON s.lo >= kk.k) "
+        f"SELECT a.first, coalesce(k2.r, -1) AS last, sum(a.w) AS w "
+        f"FROM a ASOF LEFT JOIN {KEYS_TABLE} k2 ON a.hi >= k2.k GROUP BY ALL"
+    ).fetchnumpy()
+    points = f"SELECT {v} AS v, sum({w})::DOUBLE AS w FROM {lsql} WHERE {hi} IS NULL GROUP BY {v}"
+    p, q = _aggregate(wl.con, points, wl.hist.n)
+    first = np.asarray(rows["first"], dtype=np.int64)
+    last = np.asarray(rows["last"], dtype=np.int64)
+    return first, last, np.asarray(rows["w"], dtype=np.float64), Histogram(p, q)
