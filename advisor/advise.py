@@ -29,6 +29,8 @@ class PageSettings:
     record_pointer: int = DEFAULT_RECORD_POINTER
     child_pointer: int = DEFAULT_CHILD_POINTER
     key_bytes: float | None = None  # None: from the key column's type / measured width
+    model: str = "btree"  # or "bplus": then c is the leaf capacity L
+    fill_factor: float = 1.0
 
 
 def capacities(settings: PageSettings, measured_key_bytes: float) -> list[tuple[int, Geometry | None]]:
@@ -43,8 +45,9 @@ def capacities(settings: PageSettings, measured_key_bytes: float) -> list[tuple[
     for size in sizes:
         if size < 1:
             raise SettingInvalid(f"page size must be positive, got {size}")
-        g = geometry_for(size, kb, settings.page_header, settings.record_pointer, settings.child_pointer)
-        out.append((g.capacity, g))
+        g = geometry_for(size, kb, settings.page_header, settings.record_pointer, settings.child_pointer,
+                         settings.model, settings.fill_factor)  # fmt: skip
+        out.append((g.leaf_capacity if settings.model == "bplus" else g.capacity, g))
     return out
 
 

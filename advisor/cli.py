@@ -106,7 +106,7 @@ def save_pictures(run: dict, svg: Path | None, html: Path | None, replace: bool)
 
 def _run(database, table, key, log, settings, as_json, export, export_for, force, log_column=None, count_column=None,
          distinct_keys=False, pool_pages=None, order_column=None, replay_limit=1_000_000, storage=None,
-         pool_bytes=None, svg=None, html=None, holdout=0.2, smoothing=0.0, scan_to=None):  # fmt: skip
+         pool_bytes=None, svg=None, html=None, holdout=0.2, smoothing=0.0, scan_to=None, fanout=None):  # fmt: skip
     stdout = Console(highlight=False)
     if export is not None:
         check_destination(export)
@@ -132,7 +132,8 @@ def _run(database, table, key, log, settings, as_json, export, export_for, force
             def on_plan(i: int, step: str) -> None:
                 bar.update(task, completed=i, description=f"c={unique[i][0]}: {step}")
 
-            plans = advise(wl.hist, unique, PlanOptions(smoothing=smoothing), on_plan=on_plan)
+            options = PlanOptions(smoothing=smoothing, model=settings.model, fanout=fanout or 0)
+            plans = advise(wl.hist, unique, options, on_plan=on_plan)
             bar.update(task, completed=len(unique))
         replay = None
         if order_column:
@@ -151,7 +152,7 @@ def _run(database, table, key, log, settings, as_json, export, export_for, force
             train, test = load_split(wl, order_column, holdout)
             alphas = [0.0] + ([smoothing] if smoothing > 0 else [])
             held = {"fraction": holdout, "train_lookups": train.total, "test_lookups": test.total,
-                    "rows": holdout_rows(train, test, unique, alphas)}  # fmt: skip
+                    "rows": holdout_rows(train, test, unique, alphas, options)}  # fmt: skip
         profile = storage if storage is not None else PROFILES["nvme"]
         choice = page_size_table(plans, wl.hist, profile, pool_bytes or default_pool_bytes(plans))
         written: list[str] = []
@@ -226,14 +227,21 @@ def plan_cmd(
     holdout: Annotated[float, typer.Option("--holdout", help="With --order-column: share of the latest lookups held out to judge a plan fitted on the rest (0 turns it off).", min=0.0, max=0.9)] = 0.2,
     smoothing: Annotated[float, typer.Option("--smoothing", help="Blend the fitted histogram with uniform weight: 0 none .. 1 all uniform.", min=0.0, max=1.0)] = 0.0,
     scan_to: Annotated[Optional[str], typer.Option("--scan-to", help="Log column with a range scan's upper bound; rows where it is set scan from the looked-up value to it.")] = None,
+    model: Annotated[str, typer.Option("--model", help="Index structure: btree (keys in every page) or bplus (keys only in leaves).")] = "btree",
+    fanout: Annotated[Optional[int], typer.Option("--fanout", help="bplus: children per internal page, with --keys-per-page (which then sets the leaf capacity).", min=2)] = None,
+    fill_factor: Annotated[float, typer.Option("--fill-factor", help="bplus: share of each leaf page filled (0..1].")] = 1.0,
 ) -> None:
     """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
     with _guard():
+        if model not in ("btree", "bplus"):
+            raise SettingInvalid(f"--model must be btree or bplus, got {model!r}")
+        if model == "bplus" and keys_per_page and not fanout:
+            raise SettingInvalid("--model bplus with --keys-per-page needs --fanout")
         settings = PageSettings(list(page_size or []), list(keys_per_page or []), page_header, record_pointer,
-                                child_pointer, key_bytes)  # fmt: skip
+                                child_pointer, key_bytes, model, fill_factor)  # fmt: skip
         _run(database, table, key, log, settings, as_json, export, export_for, force, log_column, count_column,
              distinct_keys, pool_pages, order_column, replay_limit, parse_storage(storage), pool_bytes, svg, html,
-             holdout, smoothing, scan_to)  # fmt: skip
+             holdout, smoothing, scan_to, fanout)  # fmt: skip
 
 
 @app.command("demo")

@@ -59,6 +59,7 @@ def _stage(wl: Workload, layout: Layout) -> str:
         "parent_page_id": layout.parent.astype(np.int64),
         "child_position": layout.slot.astype(np.int64),
         "key_count": sizes.astype(np.int64),
+        "is_leaf": layout.leaf.astype(bool) if layout.leaf is not None else np.ones(layout.pages, dtype=bool),
     }
     members = {
         "page_id": np.repeat(np.arange(layout.pages, dtype=np.int64), sizes),
@@ -71,6 +72,7 @@ def _stage(wl: Workload, layout: Layout) -> str:
         f"FROM advisor_export_members m JOIN {KEYS_TABLE} k ON k.r = m.r GROUP BY m.page_id) "
         "SELECT p.page_id, p.depth, CASE WHEN p.parent_page_id < 0 THEN NULL ELSE p.parent_page_id END AS parent_page_id, "
         "CASE WHEN p.child_position < 0 THEN NULL ELSE p.child_position END AS child_position, p.key_count, "
+        f"{'p.is_leaf, ' if layout.structure == 'bplus' else ''}"
         "g.keys[1] AS first_key, g.keys[-1] AS last_key, g.keys "
         "FROM advisor_export_pages p JOIN grouped g USING (page_id) ORDER BY p.page_id"
     )
@@ -106,25 +108,31 @@ def write_layout(wl: Workload, layout: Layout, path: str | os.PathLike, replace:
     return path
 
 
-def read_layout(wl: Workload, path: str | os.PathLike, capacity: int) -> Layout:
-    """Read an export back into a :class:`Layout` over ``wl``'s keys (for checks and re-costing)."""
+def read_layout(wl: Workload, path: str | os.PathLike, capacity: int, fanout: int = 0) -> Layout:
+    """Read an export back into a :class:`Layout` over ``wl``'s keys (for checks and re-costing).
+
+    ``fanout`` > 0 reads a B+-tree export (its ``is_leaf`` column says which pages are leaves)."""
     path = Path(path)
     fmt = export_format(path)
     ktype = wl.key_type
     if fmt == "csv":
+        leafcol = "is_leaf::BOOLEAN AS is_leaf, " if fanout else ""
         rel = f"(SELECT page_id::BIGINT AS page_id, parent_page_id::BIGINT AS parent_page_id, " \
-              f"child_position::BIGINT AS child_position, keys::{ktype}[] AS keys " \
+              f"child_position::BIGINT AS child_position, {leafcol}keys::{ktype}[] AS keys " \
               f"FROM read_csv({sql_string(str(path))}, all_varchar=true))"  # fmt: skip
     elif fmt == "json":
-        rel = f"(SELECT page_id, parent_page_id, child_position, keys::{ktype}[] AS keys FROM read_json({sql_string(str(path))}))"
+        leafcol = "is_leaf, " if fanout else ""
+        rel = f"(SELECT page_id, parent_page_id, child_position, {leafcol}keys::{ktype}[] AS keys FROM read_json({sql_string(str(path))}))"
     elif fmt == "parquet":
         rel = f"read_parquet({sql_string(str(path))})"
     else:
         run_sql(wl.con, f"ATTACH {sql_string(str(path))} AS advisor_import (READ_ONLY)")
         rel = f"advisor_import.{EXPORT_TABLE}"
     try:
+        leaf_sql = "is_leaf" if fanout else "true"
         meta = wl.con.execute(
-            f"SELECT page_id, coalesce(parent_page_id, -1), coalesce(child_position, -1) FROM {rel} ORDER BY page_id"
+            f"SELECT page_id, coalesce(parent_page_id, -1), coalesce(child_position, -1), {leaf_sql} "
+            f"FROM {rel} ORDER BY page_id"
         ).fetchall()
         members = wl.con.execute(
             f"SELECT e.page_id, kk.r FROM (SELECT page_id, unnest(keys) AS k FROM {rel}) e "
@@ -140,11 +148,11 @@ def read_layout(wl: Workload, path: str | os.PathLike, capacity: int) -> Layout:
     by_page: dict[int, list[int]] = {}
     for page, r in members:
         by_page.setdefault(page, []).append(r)
-    b = LayoutBuilder(wl.hist.n, capacity)
-    for page, parent, slot in meta:
+    b = LayoutBuilder(wl.hist.n, capacity, "bplus" if fanout else "btree", fanout)
+    for page, parent, slot, is_leaf in meta:
         if page != len(b):
             raise InputInvalid(f"layout {path}: page ids must run 0, 1, 2, ...")
-        b.add(np.asarray(by_page.get(page, []), dtype=np.int64), int(parent), int(slot))
+        b.add(np.asarray(by_page.get(page, []), dtype=np.int64), int(parent), int(slot), bool(is_leaf))
     layout = b.build()
     check_layout(layout)
     return layout

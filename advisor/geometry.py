@@ -58,6 +58,7 @@ class Geometry:
     key_bytes: float
     record_pointer: int
     child_pointer: int
+    fill_factor: float = 1.0  # B+-tree leaves: share of each leaf page that is filled
 
     @property
     def entry_bytes(self) -> float:
@@ -71,6 +72,24 @@ class Geometry:
     def capacity(self) -> int:
         return int(math.floor((self.page_size - self.page_header) / self.entry_bytes))
 
+    @property
+    def leaf_capacity(self) -> int:
+        """B+-tree: entries (key + record pointer) per leaf, at the fill factor."""
+        return int(math.floor((self.page_size - self.page_header) * self.fill_factor / (self.key_bytes + self.record_pointer)))
+
+    @property
+    def fanout(self) -> int:
+        """B+-tree: children per internal page, m pointers and m - 1 separators:
+        F = floor((page_size - page_header + key_bytes) / (key_bytes + child_pointer))."""
+        return int(math.floor((self.page_size - self.page_header + self.key_bytes) / (self.key_bytes + self.child_pointer)))
+
+    def bplus_formula(self) -> str:
+        return (
+            f"leaves: floor(({self.page_size} - {self.page_header}) x {self.fill_factor:g} / ({self.key_bytes:g} + "
+            f"{self.record_pointer})) = {self.leaf_capacity} keys; internal: floor(({self.page_size} - "
+            f"{self.page_header} + {self.key_bytes:g}) / ({self.key_bytes:g} + {self.child_pointer})) = {self.fanout} children"
+        )
+
     def formula(self) -> str:
         return (
             f"floor(({self.page_size} - {self.page_header}) / "
@@ -78,7 +97,7 @@ class Geometry:
         )
 
     def as_dict(self) -> dict:
-        return asdict(self) | {"keys_per_page": self.capacity}
+        return asdict(self) | {"keys_per_page": self.capacity, "leaf_capacity": self.leaf_capacity, "fanout": self.fanout}
 
 
 def geometry_for(
@@ -87,13 +106,25 @@ def geometry_for(
     page_header: int = DEFAULT_PAGE_HEADER,
     record_pointer: int = DEFAULT_RECORD_POINTER,
     child_pointer: int = DEFAULT_CHILD_POINTER,
+    model: str = "btree",
+    fill_factor: float = 1.0,
 ) -> Geometry:
     """Check the figures and return the geometry; at least one key must fit."""
     if page_header < 0 or record_pointer < 0 or child_pointer < 0:
         raise SettingInvalid("page header and pointer sizes must not be negative")
     if key_bytes <= 0:
         raise SettingInvalid(f"key width must be positive, got {key_bytes:g}")
-    g = Geometry(int(page_size), int(page_header), float(key_bytes), int(record_pointer), int(child_pointer))
+    if not 0 < fill_factor <= 1:
+        raise SettingInvalid(f"fill factor must be in (0, 1], got {fill_factor:g}")
+    g = Geometry(int(page_size), int(page_header), float(key_bytes), int(record_pointer), int(child_pointer), float(fill_factor))
+    if model == "bplus":
+        if g.leaf_capacity < 1 or g.fanout < 2:
+            need = max(page_header + (key_bytes + record_pointer) / fill_factor, page_header + key_bytes + 2 * child_pointer)
+            raise SettingInvalid(
+                f"page size {page_size} bytes cannot hold a B+-tree leaf entry and two child pointers: "
+                f"the minimum is {int(math.ceil(need))} bytes"
+            )
+        return g
     if g.capacity < 1:
         raise SettingInvalid(
             f"page size {page_size} bytes holds no key: the minimum is {g.min_page_size} bytes "

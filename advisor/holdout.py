@@ -19,12 +19,13 @@ def _saving(uniform: float, advised: float) -> float:
 
 
 def holdout_rows(train: Histogram, test: Histogram, targets: list[tuple[int, Geometry | None]],
-                 smoothings: list[float]) -> list[dict]:  # fmt: skip
+                 smoothings: list[float], base: PlanOptions | None = None) -> list[dict]:  # fmt: skip
     """One row per capacity and smoothing: reads and savings in sample (train) and held out (test)."""
     rows = []
     for c, g in targets:
         for alpha in smoothings:
-            plan = plan_capacity(train, c, g, PlanOptions(smoothing=alpha))
+            opts = PlanOptions(smoothing=alpha, model=base.model, fanout=base.fanout) if base else PlanOptions(smoothing=alpha)
+            plan = plan_capacity(train, c, g, opts)
             ins_u, ins_o = plan.uniform_cost.expected_page_reads, plan.recommended_cost.expected_page_reads
             out_u = evaluate(plan.uniform, test).expected_page_reads
             out_o = evaluate(plan.recommended, test).expected_page_reads

@@ -13,8 +13,13 @@ A layout is stored as flat arrays, so a million-key plan costs a few megabytes:
 ``page_keys[page_start[i]:page_start[i+1]]`` are the ranks of the keys on page ``i`` in
 ascending order, ``parent[i]`` / ``slot[i]`` place page ``i`` in child slot ``slot[i]`` of its
 parent (the root is page 0 with parent -1). Pages are numbered so that a parent precedes its
-children. ``structure`` names the tree family; "btree" is the classic model above, and a
-keys-in-leaves family adds its own rule to :func:`evaluate` without changing the arrays.
+children. ``structure`` names the tree family: "btree" is the classic model above; "bplus"
+keeps every key in a leaf page (``leaf`` marks them; leaves hold at most ``capacity`` keys),
+while an internal page with m <= ``fanout`` children holds m - 1 separator ranks, separator t
+being the rank of the first key in child t's subtree. In a B+-tree every lookup, hit or miss,
+costs the depth of the leaf whose key range covers it; a value between two leaves' keys goes to
+the left leaf (separators are the right leaf's first key), one before the first key to the
+first leaf. Only :func:`end_pages` and :func:`check_layout` know the family.
 """
 
 from __future__ import annotations
@@ -26,7 +31,7 @@ import numpy as np
 from .errors import LayoutInvalid
 from .histogram import Histogram
 
-STRUCTURES = ("btree",)
+STRUCTURES = ("btree", "bplus")
 
 
 @dataclass(frozen=True)
@@ -40,6 +45,8 @@ class Layout:
     page_keys: np.ndarray  # (n_keys,) key ranks, ascending within each page
     parent: np.ndarray  # (pages,) parent page, -1 for the root
     slot: np.ndarray  # (pages,) child slot in the parent, -1 for the root
+    fanout: int = 0  # bplus: most children of an internal page
+    leaf: np.ndarray | None = None  # bplus: (pages,) True for leaf pages
 
     @property
     def pages(self) -> int:
@@ -59,17 +66,22 @@ class Layout:
 class LayoutBuilder:
     """Collects pages top-down (parents first) and freezes them into a :class:`Layout`."""
 
-    def __init__(self, n_keys: int, capacity: int, structure: str = "btree") -> None:
-        self.n_keys, self.capacity, self.structure = n_keys, capacity, structure
+    def __init__(self, n_keys: int, capacity: int, structure: str = "btree", fanout: int = 0) -> None:
+        self.n_keys, self.capacity, self.structure, self.fanout = n_keys, capacity, structure, fanout
         self._keys: list[np.ndarray] = []
         self._parent: list[int] = []
         self._slot: list[int] = []
+        self._leaf: list[bool] = []
 
-    def add(self, keys: np.ndarray, parent: int = -1, slot: int = -1) -> int:
-        """Append a page holding ``keys`` (ranks, ascending); returns its page id."""
+    def add(self, keys: np.ndarray, parent: int = -1, slot: int = -1, leaf: bool = True) -> int:
+        """Append a page holding ``keys`` (ranks, ascending); returns its page id.
+
+        For "bplus", ``leaf=False`` pages hold separator ranks instead of entries.
+        """
         self._keys.append(np.asarray(keys, dtype=np.int64))
         self._parent.append(parent)
         self._slot.append(slot)
+        self._leaf.append(leaf)
         return len(self._parent) - 1
 
     def __len__(self) -> int:
@@ -88,6 +100,8 @@ class LayoutBuilder:
             page_keys=keys,
             parent=np.asarray(self._parent, dtype=np.int64),
             slot=np.asarray(self._slot, dtype=np.int64),
+            fanout=self.fanout,
+            leaf=np.asarray(self._leaf, dtype=bool) if self.structure == "bplus" else None,
         )
 
 
@@ -117,6 +131,8 @@ def check_layout(layout: Layout) -> None:
     n, c, P = layout.n_keys, layout.capacity, layout.pages
     if layout.structure not in STRUCTURES:
         raise LayoutInvalid(f"unknown structure {layout.structure!r}")
+    if layout.structure == "bplus":
+        return _check_bplus(layout)
     if c < 1:
         raise LayoutInvalid("capacity must be at least 1")
     if n == 0:
@@ -162,6 +178,58 @@ def check_layout(layout: Layout) -> None:
         raise LayoutInvalid("a subtree's keys fall outside its slot in the parent page")
 
 
+def _check_bplus(layout: Layout) -> None:
+    """B+-tree invariants: leaves hold 1..L consecutive ranks covering 0..n-1 once, in order;
+    internal pages have 2..F children in slots 0..m-1 (m - 1 separators), and child t's subtree
+    covers exactly the ranks from separator t (or the page's own first rank) up to separator t+1."""
+    n, L, F, P = layout.n_keys, layout.capacity, layout.fanout, layout.pages
+    if L < 1 or F < 2:
+        raise LayoutInvalid("a B+-tree needs leaf capacity >= 1 and fanout >= 2")
+    if n == 0:
+        if P != 0:
+            raise LayoutInvalid("a layout over no keys must have no pages")
+        return
+    if P == 0 or layout.leaf is None or layout.leaf.shape != (P,):
+        raise LayoutInvalid("keys but no pages, or no leaf flags")
+    keys, start, parent, slot, leaf = layout.page_keys, layout.page_start, layout.parent, layout.slot, layout.leaf
+    sizes = np.diff(start)
+    if parent[0] != -1 or np.any(parent[1:] < 0) or np.any(parent[1:] >= np.arange(1, P)):
+        raise LayoutInvalid("page 0 must be the only root and parents must precede children")
+    if np.any(leaf[parent[1:]]):
+        raise LayoutInvalid("a leaf page has a child")
+    lsz = sizes[leaf]
+    if lsz.min() < 1 or lsz.max() > L:
+        raise LayoutInvalid(f"a leaf holds {int(lsz.min())}..{int(lsz.max())} keys, allowed 1..{L}")
+    leaf_keys = np.concatenate([layout.keys_of(p) for p in np.nonzero(leaf)[0]])
+    if leaf_keys.size != n or np.bincount(leaf_keys, minlength=n).max() != 1 or leaf_keys.max() >= n:
+        raise LayoutInvalid("not every key appears in exactly one leaf")
+    for p in np.nonzero(leaf)[0]:
+        k = layout.keys_of(p)
+        if np.any(np.diff(k) != 1):
+            raise LayoutInvalid("a leaf's keys are not consecutive ranks")
+    children: dict[int, list[tuple[int, int]]] = {}
+    for p in range(1, P):
+        children.setdefault(int(parent[p]), []).append((int(slot[p]), p))
+    lo = np.full(P, n, dtype=np.int64)
+    hi = np.full(P, -1, dtype=np.int64)
+    for p in range(P - 1, -1, -1):
+        if leaf[p]:
+            k = layout.keys_of(p)
+            lo[p], hi[p] = k[0], k[-1]
+            continue
+        kids = sorted(children.get(p, []))
+        seps = layout.keys_of(p)
+        if not 2 <= len(kids) <= F or [s for s, _ in kids] != list(range(len(kids))) or len(seps) != len(kids) - 1:
+            raise LayoutInvalid(f"internal page {p} must have 2..{F} children in slots 0..m-1 and m-1 separators")
+        ids = [c for _, c in kids]
+        lo[p], hi[p] = lo[ids[0]], hi[ids[-1]]
+        for t in range(1, len(ids)):
+            if lo[ids[t]] != seps[t - 1] or hi[ids[t - 1]] + 1 != lo[ids[t]]:
+                raise LayoutInvalid(f"separator {t} of page {p} does not match its children's key ranges")
+    if lo[0] != 0 or hi[0] != n - 1:
+        raise LayoutInvalid("the tree does not cover every key")
+
+
 @dataclass(frozen=True)
 class Cost:
     """What a layout costs on a histogram, all from :func:`evaluate`."""
@@ -188,12 +256,8 @@ def evaluate(layout: Layout, hist: Histogram) -> Cost:
         gd = np.zeros(1, dtype=np.int64)
         return Cost(0.0, 0, 0, np.zeros(0), np.zeros(0, dtype=np.int64), gd)
     depth = layout.depths()
-    key_depth = np.empty(n, dtype=np.int64)
-    key_depth[layout.page_keys] = np.repeat(depth, layout.page_sizes())
-    gap_depth = np.empty(n + 1, dtype=np.int64)
-    gap_depth[0] = key_depth[0]
-    gap_depth[n] = key_depth[n - 1]
-    gap_depth[1:n] = np.maximum(key_depth[:-1], key_depth[1:])
+    key_page, gap_page = end_pages(layout)
+    key_depth, gap_depth = depth[key_page], depth[gap_page]
     total = hist.total
     height = int(depth.max())
     by_depth = np.bincount(key_depth, weights=hist.p, minlength=height + 1)
@@ -207,10 +271,21 @@ def evaluate(layout: Layout, hist: Histogram) -> Cost:
 
 
 def end_pages(layout: Layout) -> tuple[np.ndarray, np.ndarray]:
-    """Page where each hit (per key) and each miss (per gap) stops: the last page it reads."""
+    """Page where each hit (per key) and each miss (per gap) stops: the last page it reads.
+
+    Classic B-tree: a key's own page; a gap's is the deeper of its neighbours' pages (one is an
+    ancestor of the other or they share a page). B+-tree: a key's leaf; a gap's is the leaf of
+    the key before it (the first leaf for gap 0).
+    """
     n = layout.n_keys
     key_page = np.empty(n, dtype=np.int64)
-    key_page[layout.page_keys] = np.repeat(np.arange(layout.pages), layout.page_sizes())
+    owner = np.repeat(np.arange(layout.pages), layout.page_sizes())
+    if layout.structure == "bplus" and layout.pages:
+        in_leaf = layout.leaf[owner]
+        key_page[layout.page_keys[in_leaf]] = owner[in_leaf]
+        gap_page = np.concatenate([key_page[:1], key_page]) if n else np.zeros(1, dtype=np.int64)
+        return key_page, gap_page
+    key_page[layout.page_keys] = owner
     if n == 0:
         return key_page, np.zeros(1, dtype=np.int64)
     depth = layout.depths()[key_page]
@@ -242,6 +317,8 @@ def page_traffic(layout: Layout, hist: Histogram) -> np.ndarray:
 def scan_pages(layout: Layout, first: np.ndarray, last: np.ndarray) -> np.ndarray:
     """Pages a range scan touches, per scan over key ranks first..last (inclusive).
 
+    B+-tree: the descent to the first key's leaf plus every further leaf of the range (the leaf
+    chain), i.e. depth + leaves - 1. Classic B-tree:
     A scan descends to its first key and walks the keys in order; it reads every page holding a
     key of the range and every ancestor of those pages (to reach a child page its parent's
     pointer must be read), each page once. That includes the path to the first key. (Every
@@ -258,6 +335,14 @@ def scan_pages(layout: Layout, first: np.ndarray, last: np.ndarray) -> np.ndarra
     key_page, gap_page = end_pages(layout)
     empty = first > last
     out[empty] = depth[gap_page[np.clip(first[empty], 0, n)]]
+    if layout.structure == "bplus":
+        # B+-tree: descend once to the first key's leaf, then follow the leaf chain
+        full = ~empty
+        a, b = first[full], last[full]
+        leaf_start = np.concatenate([[1], (np.diff(key_page) != 0).astype(np.int64)])
+        run = np.cumsum(leaf_start)  # leaf ordinal per key, leaves being consecutive runs
+        out[full] = depth[key_page[a]] + (run[b] - run[a])
+        return out
     parent = layout.parent
     for i in np.nonzero(~empty)[0]:
         level = np.unique(key_page[int(first[i]) : int(last[i]) + 1])

@@ -14,14 +14,27 @@ from typing import Callable
 from .geometry import Geometry
 from .histogram import Histogram
 from .layout import Cost, Layout, check_layout, evaluate
+from .errors import SettingInvalid
 from .optimize import balanced_layout, exact_work, hot_first_layout, lower_bounds, polish, solve_exact, uniform_layout
+from .optimize.bplus import (
+    balanced_bplus, bplus_chain, bplus_level_bound, bplus_work, full_leaves_balanced, full_leaves_exact, leaf_count,
+    solve_bplus_exact, uniform_bplus,
+)  # fmt: skip
 
 EXACT_MAX_OPS = 1.5e9  # about 5 s of numpy on one core of this machine kind
 EXACT_MAX_BYTES = 2.0e9
 
 
-def near_candidates(hist: Histogram, c: int):
+def near_candidates(hist: Histogram, c: int, model: str = "btree", fanout: int = 0, opts=None):
     """(name, builder) of every near-optimal construction the planner tries."""
+    if model == "bplus":
+        leaves = leaf_count(hist.n, c)
+        if bplus_work(leaves, fanout) <= (opts.exact_max_ops if opts else EXACT_MAX_OPS):
+            yield "full leaves, exact internal pages", lambda: full_leaves_exact(hist, c, fanout)
+        yield "full leaves, weight-balanced internal pages", lambda: full_leaves_balanced(hist, c, fanout)
+        yield "weight-balanced leaves", lambda: balanced_bplus(hist, c, fanout, 0.1)
+        yield "weight-balanced leaves, spread 1", lambda: balanced_bplus(hist, c, fanout, 1.0)
+        return
     yield "weight-balanced", lambda: balanced_layout(hist, c, 0.0)
     yield "weight-balanced, spread 0.1", lambda: balanced_layout(hist, c, 0.1)
     yield "hot-first", lambda: hot_first_layout(hist, c, 0)
@@ -46,6 +59,8 @@ class Plan:
     method: str
     seconds: float
     dp_objective: float | None = None
+    model: str = "btree"
+    fanout: int = 0
 
     @property
     def page_size(self) -> int | None:
@@ -74,6 +89,8 @@ class PlanOptions:
     exact_max_bytes: float = EXACT_MAX_BYTES
     polish_ops: float = 3e8  # exact DP work spent re-solving small subtrees of a near plan
     smoothing: float = 0.0  # plan on hist.smoothed(smoothing); costs are always on the raw histogram
+    model: str = "btree"  # or "bplus" (keys only in leaves, variable depth)
+    fanout: int = 0  # bplus with a direct capacity: children per internal page
     check: bool = True
     extra: dict = field(default_factory=dict)
 
@@ -90,16 +107,27 @@ def plan_capacity(
     step = on_step or (lambda _s: None)
     fit = hist.smoothed(opts.smoothing)  # the weights the layout is fitted to
     t0 = time.perf_counter()
-    uni = uniform_layout(hist.n, c)
+    bplus = opts.model == "bplus"
+    F = (geometry.fanout if geometry else opts.fanout) if bplus else 0
+    if bplus and F < 2:
+        raise SettingInvalid("a B+-tree plan needs a fanout of at least 2 (give --fanout with --keys-per-page)")
+    if bplus:
+        uni = uniform_bplus(hist.n, c, F)
+        ops = bplus_work(hist.n, F) if hist.n > c else 0.0
+        mem = (2 * len(bplus_chain(F)) + 4) * (hist.n + 1) ** 2 * 8.0 if hist.n > c else 0.0
+        solve = lambda h: solve_bplus_exact(h, c, F)  # noqa: E731
+    else:
+        uni = uniform_layout(hist.n, c)
+        ops, mem = exact_work(hist.n, c)
+        solve = lambda h: solve_exact(h, c)  # noqa: E731
     uni_cost = evaluate(uni, hist)
-    ops, mem = exact_work(hist.n, c)
     dp_objective = None
     if hist.total <= 0:
         # nothing is looked up: every layout costs 0, so keep the layout the loader would build
         best, best_cost, method, proven = uni, uni_cost, "no lookups: even split kept", True
     elif ops <= opts.exact_max_ops and mem <= opts.exact_max_bytes:
         step("exact")
-        res = solve_exact(fit, c)
+        res = solve(fit)
         best, method, proven = res.layout, "exact DP", opts.smoothing <= 0
         dp_objective = res.objective if opts.smoothing <= 0 else None
         best_cost = evaluate(best, hist)
@@ -107,7 +135,7 @@ def plan_capacity(
             method += f" on smoothed weights (alpha {opts.smoothing:g})"
     else:
         best, best_cost, method = uni, evaluate(uni, fit), "even split (nothing better found)"
-        for name, build in near_candidates(fit, c):
+        for name, build in near_candidates(fit, c, opts.model, F, opts):
             step(name)
             cand = build()
             cost = evaluate(cand, fit)
@@ -125,7 +153,7 @@ def plan_capacity(
         check_layout(best)
         check_layout(uni)
     step("bounds")
-    bounds = lower_bounds(hist, c)
+    bounds = {"level_capacity": bplus_level_bound(hist, c, F)} if bplus else lower_bounds(hist, c)
     lb = max(bounds.values())
     if not proven and best_cost.expected_page_reads <= lb * (1 + PROOF_TOLERANCE):
         proven, method = True, method + ", meets the lower bound"
@@ -141,4 +169,6 @@ def plan_capacity(
         method=method,
         seconds=time.perf_counter() - t0,
         dp_objective=dp_objective,
+        model=opts.model,
+        fanout=F,
     )

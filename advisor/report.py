@@ -53,7 +53,9 @@ def traffic_panel(run: dict) -> Panel:
 
 
 def plans_table(run: dict) -> Table:
-    t = Table(title="Page reads per lookup: even split vs advised layout (c = keys per page)", title_justify="left")
+    bplus = bool(run["plans"]) and run["plans"][0].get("model") == "bplus"
+    what = "B+-tree, c = keys per leaf" if bplus else "c = keys per page"
+    t = Table(title=f"Page reads per lookup: even split vs advised layout ({what})", title_justify="left")
     for name in ("page bytes", "c", "even split", "advised", "saved", "lower bound", "gap", "optimum"):
         t.add_column(name, justify="left" if name == "optimum" else "right")
     for p in run["plans"]:
@@ -215,12 +217,25 @@ def method_notes(run: dict) -> Text:
     lines = []
     for p in run["plans"]:
         g = p["geometry"]
-        cap = f"keys/page = {g and _formula(g) or str(p['keys_per_page']) + ' (given)'}"
+        if p.get("model") == "bplus":
+            cap = _bplus_formula(g) if g else f"{p['keys_per_page']} keys per leaf, fanout {p['fanout']} (given)"
+        else:
+            cap = f"keys/page = {g and _formula(g) or str(p['keys_per_page']) + ' (given)'}"
         lines.append(f"c={p['keys_per_page']}: {cap}; method: {p['optimized']['method']}; "
                      f"bounds: " + ", ".join(f"{k} {v:.3f}" for k, v in p["lower_bounds"].items()))  # fmt: skip
-    lines.append("Cost model: a hit reads every page from the root to the page holding the key; a miss reads "
-                 "pages until it meets an empty child slot.")  # fmt: skip
+    if run["plans"] and run["plans"][0].get("model") == "bplus":
+        lines.append("Cost model (B+-tree, leaves at any depth): every lookup reads the pages from the root to the leaf "
+                     "covering it; a value between two leaves goes to the left one.")  # fmt: skip
+    else:
+        lines.append("Cost model: a hit reads every page from the root to the page holding the key; a miss reads "
+                     "pages until it meets an empty child slot.")  # fmt: skip
     return Text("\n".join(lines), style="dim")
+
+
+def _bplus_formula(g: dict) -> str:
+    return (f"B+-tree leaves: floor(({g['page_size']} - {g['page_header']}) x {g['fill_factor']:g} / ({g['key_bytes']:g} key + "
+            f"{g['record_pointer']} record ptr)) = {g['leaf_capacity']} keys; internal: floor(({g['page_size']} - "
+            f"{g['page_header']} + {g['key_bytes']:g}) / ({g['key_bytes']:g} + {g['child_pointer']})) = {g['fanout']} children")  # fmt: skip
 
 
 def _formula(g: dict) -> str:

@@ -28,6 +28,8 @@ def plan_dict(plan: Plan) -> dict:
     return {
         "keys_per_page": int(plan.keys_per_page),
         "page_size": plan.page_size,
+        "model": plan.model,
+        "fanout": int(plan.fanout) if plan.model == "bplus" else None,
         "geometry": plan.geometry.as_dict() if plan.geometry else None,
         "optimized": cost_dict(plan.recommended_cost) | {"method": plan.method},
         "uniform": cost_dict(plan.uniform_cost),

@@ -97,3 +97,27 @@ def random_hist(rng: np.random.Generator, n: int, zero_share: float = 0.3, miss_
     if p.sum() + q.sum() == 0:
         p[0] = 1
     return Histogram(p, q)
+
+
+def brute_force_bplus(w, L, F) -> float:
+    """Minimum of sum_k w_k * depth(leaf(k)) over EVERY variable-depth B+-tree: a range is a leaf
+    (if it has at most L keys) or an internal page splitting it into 2..F non-empty runs."""
+    w = tuple(float(x) for x in w)
+    n = len(w)
+
+    @lru_cache(maxsize=None)
+    def best(lo, hi):
+        lam = sum(w[lo:hi])
+        options = [lam] if hi - lo <= L else []
+
+        @lru_cache(maxsize=None)
+        def parts(a, k):  # cheapest split of a..hi-1 into exactly k runs
+            if k == 1:
+                return best(a, hi)
+            return min((best(a, r) + parts(r, k - 1) for r in range(a + 1, hi - k + 2)), default=float("inf"))
+
+        for k in range(2, min(F, hi - lo) + 1):
+            options.append(lam + parts(lo, k))
+        return min(options)
+
+    return best(0, n)

@@ -24,6 +24,7 @@ import numpy as np
 
 from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
+from .bplus import bplus_work, solve_bplus_exact
 from .exact import exact_work, solve_exact
 from .uniform import min_height
 
@@ -265,28 +266,37 @@ def polish(layout: Layout, hist: Histogram, ops_budget: float = 3e8, max_subtree
     kids: dict[int, list[tuple[int, int]]] = {}
     for page in range(1, layout.pages):
         kids.setdefault(int(layout.parent[page]), []).append((int(layout.slot[page]), page))
-    b = LayoutBuilder(n, c, layout.structure)
+    b = LayoutBuilder(n, c, layout.structure, layout.fanout)
+    bplus = layout.structure == "bplus"
     spent = 0.0
     todo = deque([(0, -1, -1)])
     while todo:
         page, parent, slot = todo.popleft()
         size = int(hi[page] - lo[page] + 1)
-        work = exact_work(size, c)[0]
+        work = bplus_work(size, layout.fanout) if bplus else exact_work(size, c)[0]
         if kids.get(page) and work <= max_subtree_ops and spent + work <= ops_budget:
             spent += work
-            _graft_exact(b, hist, int(lo[page]), int(hi[page]) + 1, c, parent, slot)
+            _graft_exact(b, hist, int(lo[page]), int(hi[page]) + 1, c, parent, slot, layout.fanout if bplus else 0)
             continue
-        new = b.add(layout.keys_of(page), parent, slot)
+        new = b.add(layout.keys_of(page), parent, slot, bool(layout.leaf[page]) if bplus else True)
         for s, child in sorted(kids.get(page, [])):
             todo.append((child, new, s))
     return b.build()
 
 
-def _graft_exact(b: LayoutBuilder, hist: Histogram, lo: int, hi: int, c: int, parent: int, slot: int) -> None:
-    """Solve keys lo..hi-1 (and their gaps) exactly and attach the subtree at (parent, slot)."""
-    sub_hist = Histogram(hist.p[lo:hi], hist.q[lo : hi + 1])
-    sub = solve_exact(sub_hist, c).layout
+def _graft_exact(b: LayoutBuilder, hist: Histogram, lo: int, hi: int, c: int, parent: int, slot: int,
+                 fanout: int = 0) -> None:  # fmt: skip
+    """Solve keys lo..hi-1 (and their gaps) exactly and attach the subtree at (parent, slot).
+
+    For a B+-tree (``fanout`` > 0) the gaps routed to these keys' leaves are gaps lo+1..hi
+    (gap lo goes to the previous leaf unless lo = 0), so the sub-histogram shifts them."""
+    if fanout:
+        q = np.concatenate([[hist.q[0] if lo == 0 else 0.0], hist.q[lo + 1 : hi + 1]])
+        sub = solve_bplus_exact(Histogram(hist.p[lo:hi], q), c, fanout).layout
+    else:
+        sub = solve_exact(Histogram(hist.p[lo:hi], hist.q[lo : hi + 1]), c).layout
     ids: list[int] = []
     for k in range(sub.pages):
         par = int(sub.parent[k])
-        ids.append(b.add(sub.keys_of(k) + lo, parent if par < 0 else ids[par], slot if par < 0 else int(sub.slot[k])))
+        leaf = bool(sub.leaf[k]) if fanout else True
+        ids.append(b.add(sub.keys_of(k) + lo, parent if par < 0 else ids[par], slot if par < 0 else int(sub.slot[k]), leaf))

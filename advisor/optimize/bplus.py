@@ -1,0 +1,292 @@
+"""B+-tree layouts: every key in a leaf of at most L keys, internal pages of at most F children.
+
+Variable-depth shape (a static, read-only index): leaves may sit at different depths. Every
+lookup costs the depth of the leaf covering it, so with w_k = hits on key k plus the misses
+routed to its leaf (the gap after k; gap 0 goes to the first leaf) the cost is
+sum_k w_k depth(leaf(k)). With ranges (i, j] of keys i+1..j and lambda(i, j) their weight:
+
+    A(i, j) = lambda(i, j)                         if j - i <= L   (one leaf)
+    A(i, j) = lambda(i, j) + H(i, j, F)            otherwise       (an internal page)
+    H(i, j, s) = min_{i<r<j} G(i, r, a) + G(r, j, s - a)           (2..s children, a = s // 2)
+    G(i, j, 1) = A(i, j),  G(i, j, s) = min(A(i, j), H(i, j, s))   (at most s subtrees)
+
+Splitting a forest of at most s subtrees into at most a and at most s - a subtrees is exact
+(every split point is tried), so only the O(log F) sizes of the halving chain are tabulated:
+O(n^3 log F) time like the classic solver. Leaves cover ranges of at most L keys in one page,
+which is optimal for such a range (any internal page only adds lambda).
+"""
+
+from __future__ import annotations
+
+from collections import deque
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..histogram import Histogram
+from ..layout import Layout, LayoutBuilder
+
+
+def bplus_weights(hist: Histogram) -> np.ndarray:
+    """Per-key weight of the lookups its leaf answers: hits plus the misses routed to it."""
+    if hist.n == 0:
+        return np.zeros(0)
+    w = hist.p + hist.q[1:]
+    w[0] += hist.q[0]
+    return w
+
+
+def leaf_count(n: int, L: int) -> int:
+    return -(-n // L)
+
+
+def bplus_height(n: int, L: int, F: int) -> int:
+    """Pages per lookup of the uniform B+-tree: 1 + ceil(log_F(ceil(n / L))), 0 for no keys."""
+    if n == 0:
+        return 0
+    leaves, h = leaf_count(n, L), 1
+    reach = 1
+    while reach < leaves:
+        reach *= F
+        h += 1
+    return h
+
+
+def uniform_bplus(n: int, L: int, F: int) -> Layout:
+    """Leaves filled left to right with L keys (the last takes the rest), all at the minimum
+    height, internal pages splitting their leaves evenly with the fewest children that keep
+    every leaf at that depth (each internal page needs 2..F children; with F = 2 and a leaf
+    count that is not a power of two some leaves must sit one level higher)."""
+    b = LayoutBuilder(n, L, "bplus", F)
+    if n == 0:
+        return b.build()
+    leaves = leaf_count(n, L)
+    todo = deque([(0, leaves, -1, -1, bplus_height(leaves * L, L, F))])
+    while todo:
+        lo, hi, parent, slot, height = todo.popleft()  # leaf indices lo..hi-1, levels wanted
+        count = hi - lo
+        if count == 1:
+            b.add(np.arange(lo * L, min(n, (lo + 1) * L)), parent, slot, leaf=True)
+            continue
+        height = max(2, min(height, bplus_height(count * L, L, F) + 1))
+        low, high = 2 ** (height - 2), F ** (height - 2)  # leaves a child of height-1 levels may hold
+        m = max(2, -(-count // high))
+        if count // m < low:  # cannot keep every leaf at this depth: use the child's own height
+            height = bplus_height(count * L, L, F)
+            m = max(2, -(-count // F ** (height - 2)))
+        runs = np.full(m, count // m, dtype=np.int64)
+        runs[: count % m] += 1
+        edges = lo + np.concatenate([[0], np.cumsum(runs)])
+        seps = edges[1:-1] * L
+        page = b.add(seps, parent, slot, leaf=False)
+        for t in range(m):
+            todo.append((int(edges[t]), int(edges[t + 1]), page, t, height - 1))
+    return b.build()
+
+
+@dataclass(frozen=True)
+class BplusExact:
+    layout: Layout
+    objective: float
+
+
+def bplus_chain(F: int) -> dict[int, tuple[int, int]]:
+    """Forest sizes (at most s subtrees) needed for H(., ., F), each with its split."""
+    split: dict[int, tuple[int, int]] = {}
+    todo = [F]
+    while todo:
+        s = todo.pop()
+        if s <= 1 or s in split:
+            continue
+        split[s] = (s // 2, s - s // 2)
+        todo += list(split[s])
+    return split
+
+
+def bplus_work(n: int, F: int) -> float:
+    """Element operations of the exact B+ solver."""
+    return float(len(bplus_chain(F)) * n**3 / 6)
+
+
+def solve_bplus_exact(hist: Histogram, L: int, F: int) -> BplusExact:
+    """Optimal variable-depth B+-tree (leaves <= L keys, <= F children); O(n^3 log F)."""
+    n = hist.n
+    if n <= L:
+        b = LayoutBuilder(n, L, "bplus", F)
+        if n:
+            b.add(np.arange(n), leaf=True)
+        return BplusExact(b.build(), 1.0 if n and hist.total > 0 else 0.0)
+    w = bplus_weights(hist)
+    t = _tables(w, L, F)
+    layout = _rebuild(t, n, L, F)
+    return BplusExact(layout, float(t.A_start[0, n] / hist.total) if hist.total > 0 else 0.0)
+
+
+@dataclass
+class _T:
+    split: dict
+    A_start: np.ndarray  # [i, len] = A(i, i+len)
+    G_start: dict  # s -> [i, len] = G(i, i+len, s)   (s = 1 is A)
+    G_end: dict  # s -> [j, n-len] = G(j-len, j, s)
+    H: np.ndarray  # [i, len] = H(i, i+len, F)
+
+
+def _tables(w: np.ndarray, L: int, F: int) -> _T:
+    n = w.size
+    split = bplus_chain(F)
+    lefts = {a for a, _ in split.values()} | {1}
+    rights = {b for _, b in split.values()} | {1}
+    inf = np.inf
+    G_start = {s: np.full((n + 1, n + 1), inf) for s in lefts}
+    G_end = {s: np.full((n + 1, n + 1), inf) for s in rights}
+    A_start = G_start[1]
+    H = np.full((n + 1, n + 1), inf)
+    W = np.concatenate([[0.0], np.cumsum(w)])
+    order = sorted(split)
+    for ln in range(1, n + 1):
+        m = n - ln + 1
+        lam = W[ln:] - W[:m]
+        hs = {}
+        if ln >= 2:
+            for s in order:
+                a, b = split[s]
+                left = G_start[a][:m, 1:ln]  # left lengths 1..ln-1
+                right = G_end[b][ln:, n - ln + 1 : n]  # column n-len: right lengths ln-1..1
+                hs[s] = (left + right).min(axis=1)
+        A = lam if ln <= L else lam + hs[F]
+        A_start[:m, ln] = A
+        if 1 in G_end:
+            G_end[1][ln:, n - ln] = A
+        if ln > L:
+            H[:m, ln] = hs[F]
+        for s in order:
+            g = np.minimum(A, hs[s]) if s in hs else A
+            if s in G_start:
+                G_start[s][:m, ln] = g
+            if s in G_end:
+                G_end[s][ln:, n - ln] = g
+    return _T(split, A_start, G_start, G_end, H)
+
+
+def _forest_value(t: _T, s: int, i: int, j: int) -> float:
+    n = t.A_start.shape[0] - 1
+    if s in t.G_start:
+        return t.G_start[s][i, j - i]
+    return t.G_end[s][j, n - (j - i)]
+
+
+def _children(t: _T, i: int, j: int, F: int) -> list[tuple[int, int]]:
+    """Child ranges of an optimal internal page over (i, j], left to right."""
+    n = t.A_start.shape[0] - 1
+    out: list[tuple[int, int]] = []
+    stack = [(i, j, F, True)]  # (range, at most s subtrees, must split into >= 2)
+    while stack:
+        a0, b0, s, must = stack.pop()
+        ln = b0 - a0
+        if s == 1 or ln < 2 or (not must and _forest_value(t, s, a0, b0) == t.A_start[a0, ln]):
+            out.append((a0, b0))
+            continue
+        a, b = t.split[s]
+        left = t.G_start[a][a0, 1:ln]
+        right = t.G_end[b][b0, n - ln + 1 : n]
+        r = a0 + 1 + int(np.argmin(left + right))
+        stack.append((r, b0, b, False))
+        stack.append((a0, r, a, False))
+    return out
+
+
+def _rebuild(t: _T, n: int, L: int, F: int) -> Layout:
+    b = LayoutBuilder(n, L, "bplus", F)
+    todo = deque([(0, n, -1, -1)])
+    while todo:
+        i, j, parent, slot = todo.popleft()
+        if j - i <= L:
+            b.add(np.arange(i, j), parent, slot, leaf=True)
+            continue
+        kids = _children(t, i, j, F)
+        page = b.add(np.array([lo for lo, _ in kids[1:]]), parent, slot, leaf=False)
+        for k, (lo, hi) in enumerate(kids):
+            todo.append((lo, hi, page, k))
+    return b.build()
+
+
+def full_leaves_exact(hist: Histogram, L: int, F: int) -> Layout:
+    """Leaves filled left to right with L keys, then the exact DP over the leaves' weights picks
+    the internal pages (a leaf of one "key" per leaf); for up to a few hundred leaves."""
+    n = hist.n
+    leaves = leaf_count(n, L)
+    w = bplus_weights(hist)
+    leaf_w = np.add.reduceat(w, np.arange(0, n, L)) if n else np.zeros(0)
+    top = solve_bplus_exact(Histogram(leaf_w, np.zeros(leaves + 1)), 1, F).layout
+    b = LayoutBuilder(n, L, "bplus", F)
+    for page in range(top.pages):
+        par, sl = int(top.parent[page]), int(top.slot[page])
+        if top.leaf[page]:
+            t = int(top.keys_of(page)[0])
+            b.add(np.arange(t * L, min(n, (t + 1) * L)), par, sl, leaf=True)
+        else:
+            b.add(top.keys_of(page) * L, par, sl, leaf=False)
+    return b.build()
+
+
+def full_leaves_balanced(hist: Histogram, L: int, F: int, spread: float = 0.1) -> Layout:
+    """Leaves filled left to right with L keys; internal pages weight-balanced over the leaves."""
+    n = hist.n
+    leaves = leaf_count(n, L)
+    w = bplus_weights(hist)
+    leaf_w = np.add.reduceat(w, np.arange(0, n, L)) if n else np.zeros(0)
+    top = balanced_bplus(Histogram(leaf_w, np.zeros(leaves + 1)), 1, F, spread)
+    b = LayoutBuilder(n, L, "bplus", F)
+    for page in range(top.pages):
+        par, sl = int(top.parent[page]), int(top.slot[page])
+        if top.leaf[page]:
+            t = int(top.keys_of(page)[0])
+            b.add(np.arange(t * L, min(n, (t + 1) * L)), par, sl, leaf=True)
+        else:
+            b.add(top.keys_of(page) * L, par, sl, leaf=False)
+    return b.build()
+
+
+def balanced_bplus(hist: Histogram, L: int, F: int, spread: float = 0.1) -> Layout:
+    """Near-optimal variable-depth B+-tree: each internal page cuts its range's weight into F
+    near-equal parts (``spread`` times the mean weight added per key so unread keys still
+    spread out); ranges of at most L keys become leaves. O(n log n)."""
+    n = hist.n
+    b = LayoutBuilder(n, L, "bplus", F)
+    if n == 0:
+        return b.build()
+    w = bplus_weights(hist)
+    w = w + spread * (w.sum() / n if w.sum() > 0 else 1.0)
+    cum = np.concatenate([[0.0], np.cumsum(w)])
+    todo = deque([(0, n, -1, -1)])
+    while todo:
+        lo, hi, parent, slot = todo.popleft()
+        if hi - lo <= L:
+            b.add(np.arange(lo, hi), parent, slot, leaf=True)
+            continue
+        parts = min(F, hi - lo)
+        targets = cum[lo] + (cum[hi] - cum[lo]) * np.arange(1, parts) / parts
+        cuts = np.unique(np.clip(np.searchsorted(cum[lo + 1 : hi], targets) + lo + 1, lo + 1, hi - 1))
+        page = b.add(cuts, parent, slot, leaf=False)
+        edges = np.concatenate([[lo], cuts, [hi]])
+        for k in range(edges.size - 1):
+            todo.append((int(edges[k]), int(edges[k + 1]), page, k))
+    return b.build()
+
+
+def bplus_level_bound(hist: Histogram, L: int, F: int) -> float:
+    """Lower bound: depth d holds at most F^(d-1) pages, so at most L F^(d-1) keys in leaves there,
+    and none at depth 1 once n > L (the root must then be internal); the heaviest keys packed
+    shallowest (ignores key order, so no layout beats it)."""
+    if hist.n == 0 or hist.total <= 0:
+        return 0.0
+    if hist.n <= L:
+        return 1.0
+    ws = np.sort(bplus_weights(hist))[::-1]
+    cum = np.concatenate([[0.0], np.cumsum(ws)])
+    cost, start, d, size = 0.0, 0, 2, L * F
+    while start < ws.size:
+        end = min(ws.size, start + size)
+        cost += d * (cum[end] - cum[start])
+        start, d, size = end, d + 1, size * F
+    return float(cost / hist.total)

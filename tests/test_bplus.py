@@ -1,0 +1,137 @@
+"""The B+-tree family: exact solver vs brute force, textbook height, evaluator vs replay."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from advisor.histogram import Histogram
+from advisor.layout import check_layout, evaluate
+from advisor.optimize.bplus import (
+    balanced_bplus, bplus_height, bplus_level_bound, bplus_weights, solve_bplus_exact, uniform_bplus,
+)  # fmt: skip
+
+from .conftest import brute_force_bplus, random_hist
+
+
+@settings(max_examples=120, deadline=None)
+@given(data=st.data(), L=st.integers(1, 3), F=st.integers(2, 4))
+def test_exact_equals_brute_force(data, L, F):
+    n = data.draw(st.integers(1, 7))
+    p = data.draw(st.lists(st.integers(0, 30), min_size=n, max_size=n))
+    q = data.draw(st.lists(st.integers(0, 30), min_size=n + 1, max_size=n + 1))
+    if sum(p) + sum(q) == 0:
+        p[0] = 1
+    hist = Histogram(np.array(p, float), np.array(q, float))
+    res = solve_bplus_exact(hist, L, F)
+    check_layout(res.layout)
+    want = brute_force_bplus(bplus_weights(hist), L, F) / hist.total
+    assert res.objective == pytest.approx(want, rel=1e-12)
+    assert evaluate(res.layout, hist).expected_page_reads == pytest.approx(res.objective, rel=1e-12)
+
+
+@pytest.mark.parametrize("n", [1, 2, 9, 10, 11, 100, 999, 5000])
+@pytest.mark.parametrize("L, F", [(1, 2), (3, 3), (10, 4), (64, 100)])
+def test_uniform_height_matches_the_textbook(n, L, F):
+    # height of a B+-tree with leaves of L entries and fanout F: 1 + ceil(log_F(ceil(n / L)))
+    # (Ramakrishnan & Gehrke, Database Management Systems, 3rd ed., ch. 10, from memory)
+    layout = uniform_bplus(n, L, F)
+    check_layout(layout)
+    leaves = math.ceil(n / L)
+    textbook = 1 + (math.ceil(math.log(leaves, F) - 1e-12) if leaves > 1 else 0)
+    cost = evaluate(layout, Histogram(np.ones(n), np.ones(n + 1)))
+    assert cost.height == textbook == bplus_height(n, L, F)
+    if F >= 3:  # all leaves at one depth: every lookup reads one full path
+        assert cost.expected_page_reads == pytest.approx(textbook)
+
+
+def _replay(layout, hist):
+    """Walk each key and gap down by separators: child t covers ranks from separator t on."""
+    import bisect
+
+    kids = {(int(layout.parent[p]), int(layout.slot[p])): p for p in range(1, layout.pages)}
+
+    def reads(value):
+        page, k = 0, 0
+        while True:
+            k += 1
+            if layout.leaf[page]:
+                return k
+            seps = list(layout.keys_of(page))
+            page = kids[(page, bisect.bisect_right(seps, value))]
+
+    n = hist.n
+    total = sum(hist.p[i] * reads(i) for i in range(n))
+    # a miss in gap g lies just below key g, so it follows key g - 1's route (gap 0: key 0's)
+    total += sum(hist.q[g] * reads(max(g - 1, 0) + 0.5 if g else 0) for g in range(n + 1))
+    return total / hist.total
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_evaluator_agrees_with_replay_and_properties(seed):
+    rng = np.random.default_rng(seed)
+    hist = random_hist(rng, 120)
+    for L, F in [(2, 3), (5, 4), (16, 8)]:
+        exact = solve_bplus_exact(hist, L, F)
+        uni = uniform_bplus(hist.n, L, F)
+        near = balanced_bplus(hist, L, F)
+        for layout in (exact.layout, uni, near):
+            check_layout(layout)
+            assert evaluate(layout, hist).expected_page_reads == pytest.approx(_replay(layout, hist), rel=1e-12)
+        e = evaluate(exact.layout, hist).expected_page_reads
+        assert bplus_level_bound(hist, L, F) <= e + 1e-12
+        assert e <= evaluate(near, hist).expected_page_reads + 1e-12
+        assert e <= evaluate(uni, hist).expected_page_reads + 1e-12
+
+
+def test_bplus_through_the_cli(tmp_path):
+    import json
+
+    import duckdb
+    from typer.testing import CliRunner
+
+    from advisor.cli import app
+    from advisor.export import read_layout
+    from advisor.workload import load_workload
+
+    db = tmp_path / "b.duckdb"
+    con = duckdb.connect(str(db))
+    con.execute("CREATE TABLE t AS SELECT range * 2 AS k FROM range(4000)").fetchall()
+    con.execute("CREATE TABLE lg AS SELECT ((hash(range) % 97) * (hash(range) % 41) * 2 + (range % 9 = 0)::INT)::BIGINT AS k "
+                "FROM range(20000)").fetchall()  # fmt: skip
+    con.close()
+    runner = CliRunner()
+    base = ["plan", str(db), "--table", "t", "--key", "k", "--log", "lg", "--model", "bplus"]
+    run = json.loads(runner.invoke(app, base + ["--json"]).stdout)
+    for p in run["plans"]:
+        assert p["model"] == "bplus" and p["fanout"] >= 2
+        assert p["lower_bound"] <= p["optimized"]["expected_page_reads"] <= p["uniform"]["expected_page_reads"]
+        assert p["geometry"]["leaf_capacity"] == p["keys_per_page"]
+    for suffix in (".csv", ".parquet", ".json"):
+        target = tmp_path / f"bp{suffix}"
+        res = runner.invoke(app, base + ["--json", "--keys-per-page", "8", "--fanout", "5", "--export", str(target)])
+        assert res.exit_code == 0, res.stderr
+        (p,) = json.loads(res.stdout)["plans"]
+        with load_workload(db, "t", "k", "lg") as wl:
+            layout = read_layout(wl, target, 8, 5)
+            assert evaluate(layout, wl.hist).expected_page_reads == pytest.approx(p["optimized"]["expected_page_reads"])
+    bad = runner.invoke(app, base + ["--keys-per-page", "8"])
+    assert bad.exit_code == 5 and "--fanout" in bad.stderr
+    bad = runner.invoke(app, ["plan", str(db), "--table", "t", "--key", "k", "--model", "btree+"])
+    assert bad.exit_code == 5
+    scans = runner.invoke(app, base + ["--json", "--keys-per-page", "8", "--fanout", "5", "--order-column", "k"])
+    assert scans.exit_code == 0, scans.stderr
+
+
+def test_bplus_scan_pages_follow_the_leaf_chain():
+    from advisor.layout import scan_pages
+
+    layout = uniform_bplus(100, 10, 4)
+    depth = layout.depths().max()
+    # keys 5..34 touch leaves 0..3: one descent plus three more leaves
+    assert scan_pages(layout, np.array([5]), np.array([34])).tolist() == [depth + 3]
+    assert scan_pages(layout, np.array([12]), np.array([12])).tolist() == [depth]
