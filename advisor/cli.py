@@ -31,7 +31,10 @@ from .workload import load_replay, load_scans, load_split, load_workload
 from .scans import scan_figures
 from .holdout import holdout_rows
 from .planner import PlanOptions
-from .bufferpool import pool_figures
+from .bufferpool import pinned_misses, pool_figures
+from .balanced import balanced_bplus_layout
+from .layout import evaluate
+from .serialize import cost_dict
 from .pagesize import PROFILES, StorageProfile, default_pool_bytes, page_size_table
 from .errors import OutputRefused, SettingInvalid
 
@@ -141,6 +144,16 @@ def _run(database, table, key, log, settings, as_json, export, export_for, force
                 raise SettingInvalid("--order-column needs --log")
             replay = load_replay(wl, order_column, replay_limit)
         pools = [pool_figures(p.uniform, p.recommended, wl.hist, replay, pool_pages) for p in plans]
+        balanced = None
+        if settings.model == "bplus":
+            balanced = []
+            for p in plans:
+                layout, sizes, how = balanced_bplus_layout(wl.hist, p.uniform, pool_pages)
+                cost = evaluate(layout, wl.hist)
+                balanced.append(cost_dict(cost) | {"method": how, "buffer_pool": [
+                    {"pool_pages": b, "uniform_pinned": u, "balanced_pinned": m}
+                    for b, u, m in zip(sizes, pinned_misses(p.uniform, wl.hist, sizes), pinned_misses(layout, wl.hist, sizes))
+                ]})  # fmt: skip
         scans = None
         if scan_to:
             if not log:
@@ -176,6 +189,9 @@ def _run(database, table, key, log, settings, as_json, export, export_for, force
         if scans is not None:
             for entry, figures in zip(run["plans"], scans):
                 entry["range_scans"] = figures
+        if balanced is not None:
+            for entry, figures in zip(run["plans"], balanced):
+                entry["balanced"] = figures
         run["timings"] = {"histogram_seconds": round(t_hist, 3), "total_seconds": round(time.perf_counter() - t0, 3)}
     if as_json:
         print(json.dumps(run, indent=2, default=str))

@@ -139,6 +139,23 @@ def page_size_panel(run: dict) -> Table | None:
     return t
 
 
+def balanced_table(run: dict) -> Table | None:
+    if not run["plans"] or "balanced" not in run["plans"][0]:
+        return None
+    t = Table(title="Balanced B+-tree (all leaves at one depth): page misses per lookup, pinned pool", title_justify="left")
+    for name in ("c", "pool pages", "even split", "hot leaves packed", "how"):
+        t.add_column(name, justify="left" if name == "how" else "right")
+    for p in run["plans"]:
+        bal = p["balanced"]
+        for i, r in enumerate(bal["buffer_pool"]):
+            t.add_row(str(p["keys_per_page"]) if i == 0 else "", f"{r['pool_pages']:,}", f"{r['uniform_pinned']:.3f}",
+                      f"[bold]{r['balanced_pinned']:.3f}[/bold]", bal["method"] if i == 0 else "",
+                      end_section=i == len(bal["buffer_pool"]) - 1)  # fmt: skip
+    t.caption = "every lookup reads the full height in both; only the cache benefits. Near-optimal, no bound yet."
+    t.caption_justify = "left"
+    return t
+
+
 def scans_table(run: dict) -> Table | None:
     if not run["plans"] or "range_scans" not in run["plans"][0]:
         return None
@@ -262,6 +279,9 @@ def render_run(run: dict) -> Group:
         pools = pool_table(run)
         if pools is not None:
             parts.append(pools)
+        bal = balanced_table(run)
+        if bal is not None:
+            parts.append(bal)
         scans = scans_table(run)
         if scans is not None:
             parts.append(scans)

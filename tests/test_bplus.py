@@ -135,3 +135,32 @@ def test_bplus_scan_pages_follow_the_leaf_chain():
     # keys 5..34 touch leaves 0..3: one descent plus three more leaves
     assert scan_pages(layout, np.array([5]), np.array([34])).tolist() == [depth + 3]
     assert scan_pages(layout, np.array([12]), np.array([12])).tolist() == [depth]
+
+
+@pytest.mark.parametrize("clustered", [False, True])
+def test_balanced_shape_properties(clustered):
+    from advisor.balanced import balanced_bplus_layout
+    from advisor.bufferpool import pinned_misses
+
+    rng = np.random.default_rng(3)
+    n = 5990
+    # clustered: the hottest keys are consecutive but start mid-leaf (at key 10)
+    ranks = (np.arange(n) - 10) % n if clustered else rng.permutation(n)
+    p = np.round(1e6 / (ranks + 1.0))
+    hist = Histogram(p, np.zeros(n + 1))
+    uni = uniform_bplus(n, 20, 8)
+    layout, sizes, _ = balanced_bplus_layout(hist, uni, [20, 60] if clustered else None)
+    check_layout(layout)
+    height = uni.depths().max()
+    leaves = np.nonzero(layout.leaf)[0]
+    assert (layout.depths()[leaves] == height).all()  # every leaf at the even split's depth
+    assert evaluate(layout, hist).expected_page_reads == pytest.approx(height)
+    for a, b in zip(pinned_misses(layout, hist, sizes), pinned_misses(uni, hist, sizes)):
+        assert a <= b + 1e-12
+    # the variable-depth optimum (near-optimal here) is no worse than the balanced shape's reads
+    from advisor.planner import PlanOptions, plan_capacity
+
+    plan = plan_capacity(hist, 20, options=PlanOptions(model="bplus", fanout=8))
+    assert plan.recommended_cost.expected_page_reads <= evaluate(layout, hist).expected_page_reads + 1e-12
+    if clustered:  # a misaligned hot run packs into fewer leaves: a pool of 20 or 60 pages gains
+        assert pinned_misses(layout, hist, sizes)[-1] < pinned_misses(uni, hist, sizes)[-1]

@@ -290,3 +290,64 @@ def bplus_level_bound(hist: Histogram, L: int, F: int) -> float:
         cost += d * (cum[end] - cum[start])
         start, d, size = end, d + 1, size * F
     return float(cost / hist.total)
+
+
+def leaves_to_tree(n: int, L: int, F: int, starts: np.ndarray, height: int) -> Layout:
+    """A B+-tree over the given leaves (first key rank of each, ascending), every leaf at depth
+    ``height`` when 2..F children per internal page allow it, internal pages splitting evenly."""
+    b = LayoutBuilder(n, L, "bplus", F)
+    ends = np.concatenate([starts[1:], [n]])
+    todo = deque([(0, starts.size, -1, -1, height)])
+    while todo:
+        lo, hi, parent, slot, h = todo.popleft()
+        count = hi - lo
+        if count == 1:
+            b.add(np.arange(starts[lo], ends[lo]), parent, slot, leaf=True)
+            continue
+        low, high = 2 ** (h - 2), F ** (h - 2)
+        m = max(2, -(-count // high))
+        if count // m < low or m > F:
+            h = 1 + int(np.ceil(np.log(count) / np.log(F) - 1e-12))
+            m = max(2, -(-count // F ** (h - 2)))
+        runs = np.full(m, count // m, dtype=np.int64)
+        runs[: count % m] += 1
+        edges = lo + np.concatenate([[0], np.cumsum(runs)])
+        page = b.add(starts[edges[1:-1]], parent, slot, leaf=False)
+        for t in range(m):
+            todo.append((int(edges[t]), int(edges[t + 1]), page, t, h - 1))
+    return b.build()
+
+
+def hot_leaf_starts(w: np.ndarray, L: int, k: int, max_leaves: int) -> np.ndarray | None:
+    """Leaf boundaries packing the heaviest runs of L consecutive keys into k leaves of their own.
+
+    Greedy: take the heaviest window of L keys, then the heaviest not overlapping any taken,
+    k times (vectorised per round over all windows); the keys between taken windows fill
+    leaves of L keys. None if that needs more than ``max_leaves`` leaves (a taller tree).
+    """
+    n = w.size
+    if n <= L:
+        return np.array([0])
+    cum = np.concatenate([[0.0], np.cumsum(w)])
+    win = cum[L:] - cum[:-L]  # window starting at i covers i..i+L-1
+    taken = np.zeros(win.size, dtype=bool)
+    blocked = np.zeros(win.size, dtype=bool)
+    for _ in range(k):
+        cand = np.where(blocked, -np.inf, win)
+        i = int(np.argmax(cand))
+        if not np.isfinite(cand[i]) or cand[i] <= 0:
+            break
+        taken[i] = True
+        blocked[max(0, i - L + 1) : i + L] = True
+    picks = np.nonzero(taken)[0]
+    starts = []
+    pos = 0
+    for i in picks.tolist() + [n]:
+        while pos < i:  # fill the gap pos..i-1 with leaves of up to L keys
+            starts.append(pos)
+            pos = min(i, pos + L)
+        if i < n:
+            starts.append(i)
+            pos = i + L
+    starts = np.array(sorted(set(starts)), dtype=np.int64)
+    return starts if starts.size <= max_leaves else None
