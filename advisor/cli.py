@@ -178,7 +178,7 @@ def _run(database, table, key, log, settings, as_json, export, export_for, force
         inputs = {
             "database": str(database), "table": wl.table, "key": wl.key, "key_type": wl.key_type,
             "key_bytes": round(wl.key_bytes, 2), "log": wl.log or "(none)",
-            **{k: v for k, v in wl.info.items() if k != "log_source"},
+            **{k: v for k, v in wl.info.items() if k not in ("log_source", "weight_sql")},
             "replayed_lookups": int(replay.outcomes.size) if replay is not None else None,
         }  # fmt: skip
         run = run_dict(wl.hist, plans, inputs, written, pools)

@@ -217,16 +217,7 @@ def full_leaves_exact(hist: Histogram, L: int, F: int) -> Layout:
     leaves = leaf_count(n, L)
     w = bplus_weights(hist)
     leaf_w = np.add.reduceat(w, np.arange(0, n, L)) if n else np.zeros(0)
-    top = solve_bplus_exact(Histogram(leaf_w, np.zeros(leaves + 1)), 1, F).layout
-    b = LayoutBuilder(n, L, "bplus", F)
-    for page in range(top.pages):
-        par, sl = int(top.parent[page]), int(top.slot[page])
-        if top.leaf[page]:
-            t = int(top.keys_of(page)[0])
-            b.add(np.arange(t * L, min(n, (t + 1) * L)), par, sl, leaf=True)
-        else:
-            b.add(top.keys_of(page) * L, par, sl, leaf=False)
-    return b.build()
+    return _expand_leaves(solve_bplus_exact(Histogram(leaf_w, np.zeros(leaves + 1)), 1, F).layout, n, L, F)
 
 
 def full_leaves_balanced(hist: Histogram, L: int, F: int, spread: float = 0.1) -> Layout:
@@ -235,7 +226,11 @@ def full_leaves_balanced(hist: Histogram, L: int, F: int, spread: float = 0.1) -
     leaves = leaf_count(n, L)
     w = bplus_weights(hist)
     leaf_w = np.add.reduceat(w, np.arange(0, n, L)) if n else np.zeros(0)
-    top = balanced_bplus(Histogram(leaf_w, np.zeros(leaves + 1)), 1, F, spread)
+    return _expand_leaves(balanced_bplus(Histogram(leaf_w, np.zeros(leaves + 1)), 1, F, spread), n, L, F)
+
+
+def _expand_leaves(top: Layout, n: int, L: int, F: int) -> Layout:
+    """Turn a tree over leaf ordinals (one "key" per leaf) into one over full leaves of L keys."""
     b = LayoutBuilder(n, L, "bplus", F)
     for page in range(top.pages):
         par, sl = int(top.parent[page]), int(top.slot[page])

@@ -23,13 +23,13 @@ re-running each minimisation on one row, so no argmin tables are stored.
 
 from __future__ import annotations
 
-from collections import deque
 from dataclasses import dataclass
 
 import numpy as np
 
 from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
+from .topdown import build_top_down
 
 
 @dataclass(frozen=True)
@@ -112,21 +112,7 @@ def _root_keys(t: _Tables, i: int, j: int, c: int) -> list[int]:
 
 
 def _rebuild(t: _Tables, n: int, c: int) -> Layout:
-    b = LayoutBuilder(n, c)
-    todo = deque([(0, n, -1, -1)])
-    while todo:
-        i, j, parent, slot = todo.popleft()
-        if j - i <= c:
-            b.add(np.arange(i, j), parent, slot)
-            continue
-        roots = _root_keys(t, i, j, c)
-        page = b.add(np.asarray(roots) - 1, parent, slot)
-        bounds = [i] + roots
-        ends = [r - 1 for r in roots] + [j]
-        for k, (lo, hi) in enumerate(zip(bounds, ends)):
-            if hi > lo:
-                todo.append((lo, hi, page, k))
-    return b.build()
+    return build_top_down(n, c, lambda i, j, _s: (np.asarray(_root_keys(t, i, j, c)) - 1, None))
 
 
 # ---------------------------------------------------------------------------------------------
@@ -248,19 +234,9 @@ def _forest_roots(t: _HalvingTables, i: int, j: int, s: int, out: list) -> None:
 
 
 def _halving_rebuild(t: _HalvingTables, n: int, c: int) -> Layout:
-    b = LayoutBuilder(n, c)
-    todo = deque([(0, n, -1, -1)])
-    while todo:
-        i, j, parent, slot = todo.popleft()
-        if j - i <= c:
-            b.add(np.arange(i, j), parent, slot)
-            continue
-        roots: list[int] = []
-        _forest_roots(t, i, j, c, roots)
-        page = b.add(np.asarray(roots) - 1, parent, slot)
-        bounds = [i] + roots
-        ends = [r - 1 for r in roots] + [j]
-        for k, (lo, hi) in enumerate(zip(bounds, ends)):
-            if hi > lo:
-                todo.append((lo, hi, page, k))
-    return b.build()
+    def roots(i: int, j: int, _state) -> tuple[np.ndarray, None]:
+        out: list[int] = []
+        _forest_roots(t, i, j, c, out)
+        return np.asarray(out) - 1, None
+
+    return build_top_down(n, c, roots)

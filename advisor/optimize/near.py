@@ -26,8 +26,8 @@ from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
 from .bplus import bplus_work, solve_bplus_exact
 from .exact import exact_work, solve_exact
+from .topdown import build_top_down
 from .uniform import min_height
-
 
 
 def balanced_layout(hist: Histogram, c: int, spread: float = 0.0, pick_heaviest: bool = False) -> Layout:
@@ -38,9 +38,8 @@ def balanced_layout(hist: Histogram, c: int, spread: float = 0.0, pick_heaviest:
     hot key near a cut is lifted instead of a cold one.
     """
     n = hist.n
-    b = LayoutBuilder(n, c)
     if n == 0:
-        return b.build()
+        return LayoutBuilder(0, c).build()
     mean = hist.total / (2 * n + 1) if hist.total > 0 else 1.0
     bias = spread * mean if hist.total > 0 else 1.0
     pk = hist.p + bias
@@ -51,21 +50,8 @@ def balanced_layout(hist: Histogram, c: int, spread: float = 0.0, pick_heaviest:
     cum = np.concatenate([[0.0], np.cumsum(seq)])  # cum[t] = mass of seq[:t]
     mid = cum[1:-1:2] + pk / 2  # key k's centre in the mass axis
     score = _key_scores(hist)
-    todo = deque([(0, n, -1, -1)])
-    while todo:
-        lo, hi, parent, slot = todo.popleft()
-        size = hi - lo
-        if size <= c:
-            b.add(np.arange(lo, hi), parent, slot)
-            continue
-        roots = _cut_points(cum, mid, lo, hi, c, score if pick_heaviest else None)
-        page = b.add(roots, parent, slot)
-        begins = np.concatenate([[lo], roots + 1])
-        ends = np.concatenate([roots, [hi]])
-        for t in range(c + 1):
-            if ends[t] > begins[t]:
-                todo.append((int(begins[t]), int(ends[t]), page, t))
-    return b.build()
+    pick = score if pick_heaviest else None
+    return build_top_down(n, c, lambda lo, hi, _s: (_cut_points(cum, mid, lo, hi, c, pick), None))
 
 
 def _cut_points(cum, mid, lo: int, hi: int, c: int, score=None) -> np.ndarray:
@@ -125,25 +111,11 @@ def _fill(cum, mid, lo, hi, pick, c):
 
 def heaviest_first_layout(hist: Histogram, c: int) -> Layout:
     """Simple greedy: each page takes its range's c heaviest keys (a comparison point only)."""
-    n = hist.n
-    b = LayoutBuilder(n, c)
-    if n == 0:
-        return b.build()
-    todo = deque([(0, n, -1, -1)])
-    while todo:
-        lo, hi, parent, slot = todo.popleft()
-        if hi - lo <= c:
-            b.add(np.arange(lo, hi), parent, slot)
-            continue
-        w = hist.p[lo:hi]
-        roots = np.sort(np.argpartition(-w, c - 1)[:c]) + lo
-        page = b.add(roots, parent, slot)
-        begins = np.concatenate([[lo], roots + 1])
-        ends = np.concatenate([roots, [hi]])
-        for t in range(c + 1):
-            if ends[t] > begins[t]:
-                todo.append((int(begins[t]), int(ends[t]), page, t))
-    return b.build()
+
+    def heaviest(lo: int, hi: int, _state) -> tuple[np.ndarray, None]:
+        return np.sort(np.argpartition(-hist.p[lo:hi], c - 1)[:c]) + lo, None
+
+    return build_top_down(hist.n, c, heaviest)
 
 
 def _key_scores(hist: Histogram) -> np.ndarray:
@@ -160,30 +132,17 @@ def hot_first_layout(hist: Histogram, c: int, extra_levels: int = 0, everywhere:
     the c heaviest keys, split over-long runs at evenly spaced keys, then drop the lightest keys
     whose removal keeps every run short enough. O(n log n) overall.
     """
-    n = hist.n
-    b = LayoutBuilder(n, c)
-    if n == 0:
-        return b.build()
     score = _key_scores(hist)
-    todo = deque([(0, n, -1, -1, extra_levels)])
-    while todo:
-        lo, hi, parent, slot, extra = todo.popleft()
+
+    def hottest(lo: int, hi: int, extra: int) -> tuple[np.ndarray, int]:
         size = hi - lo
-        if size <= c:
-            b.add(np.arange(lo, hi), parent, slot)
-            continue
         g = (c + 1) ** (min_height(size, c) - 1 + extra) - 1
         roots = _heaviest_within_runs(score[lo:hi], c, g)
         if roots is None:  # repair failed: fall back to the even split of this range
             roots = _even_roots(size, c)
-        roots = roots + lo
-        page = b.add(roots, parent, slot)
-        begins = np.concatenate([[lo], roots + 1])
-        ends = np.concatenate([roots, [hi]])
-        for t in range(roots.size + 1):
-            if ends[t] > begins[t]:
-                todo.append((int(begins[t]), int(ends[t]), page, t, extra if everywhere else 0))
-    return b.build()
+        return roots + lo, (extra if everywhere else 0)
+
+    return build_top_down(hist.n, c, hottest, extra_levels)
 
 
 def _even_roots(size: int, c: int) -> np.ndarray:

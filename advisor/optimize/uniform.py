@@ -10,11 +10,10 @@ between the runs. Every leaf is at depth h or h - 1 and no page is emptier than 
 
 from __future__ import annotations
 
-from collections import deque
-
 import numpy as np
 
-from ..layout import Layout, LayoutBuilder
+from ..layout import Layout
+from .topdown import build_top_down
 
 
 def min_height(n: int, c: int) -> int:
@@ -28,27 +27,15 @@ def min_height(n: int, c: int) -> int:
 
 def uniform_layout(n: int, c: int) -> Layout:
     """Build the even-split minimum-height layout of n keys with capacity c. O(n)."""
-    b = LayoutBuilder(n, c)
-    if n == 0:
-        return b.build()
-    todo = deque([(0, n, -1, -1)])
-    while todo:
-        lo, hi, parent, slot = todo.popleft()
+
+    def even(lo: int, hi: int, _state) -> tuple[np.ndarray, None]:
         size = hi - lo
-        if size <= c:
-            b.add(np.arange(lo, hi), parent, slot)
-            continue
         sub = (c + 1) ** (min_height(size, c) - 1)  # a child of height h-1 holds sub - 1 keys
         m = -(-(size + 1) // sub)
         rest = size - (m - 1)
         runs = np.full(m, rest // m, dtype=np.int64)
         runs[: rest % m] += 1
         # root key after run t sits at lo + sum(runs[:t+1]) + t
-        ends = lo + np.cumsum(runs) + np.arange(m)
-        roots = ends[:-1]
-        page = b.add(roots, parent, slot)
-        begins = np.concatenate([[lo], roots + 1])
-        for t in range(m):
-            if ends[t] > begins[t]:
-                todo.append((int(begins[t]), int(ends[t]), page, t))
-    return b.build()
+        return (lo + np.cumsum(runs) + np.arange(m))[:-1], None
+
+    return build_top_down(n, c, even)
