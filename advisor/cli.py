@@ -27,7 +27,8 @@ from .errors import AdvisorError
 from .export import check_destination, check_target, write_layout
 from .serialize import run_dict
 from .report import render_run
-from .workload import load_replay, load_scans, load_split, load_workload
+from .workload import load_replay, load_scans, load_split, load_workload, truncated_separator_bytes
+from dataclasses import replace
 from .scans import scan_figures
 from .holdout import holdout_rows
 from .planner import PlanOptions
@@ -109,7 +110,8 @@ def save_pictures(run: dict, svg: Path | None, html: Path | None, replace: bool)
 
 def _run(database, table, key, log, settings, as_json, export, export_for, force, log_column=None, count_column=None,
          distinct_keys=False, pool_pages=None, order_column=None, replay_limit=1_000_000, storage=None,
-         pool_bytes=None, svg=None, html=None, holdout=0.2, smoothing=0.0, scan_to=None, fanout=None):  # fmt: skip
+         pool_bytes=None, svg=None, html=None, holdout=0.2, smoothing=0.0, scan_to=None, fanout=None,
+         truncate=False):  # fmt: skip
     stdout = Console(highlight=False)
     if export is not None:
         check_destination(export)
@@ -123,6 +125,10 @@ def _run(database, table, key, log, settings, as_json, export, export_for, force
     with load_workload(database, table, key, log, log_column, count_column, distinct_keys) as wl:
         t_hist = time.perf_counter() - t0
         targets = capacities(settings, wl.key_bytes)
+        if truncate:
+            if settings.model != "bplus":
+                raise SettingInvalid("--truncate-separators applies to --model bplus")
+            targets = [(c, replace(g, separator_bytes=truncated_separator_bytes(wl, c)) if g else g) for c, g in targets]
         seen, unique = set(), []
         for c, g in targets:
             tag = (c, g.page_size if g else None)
@@ -246,6 +252,7 @@ def plan_cmd(
     model: Annotated[str, typer.Option("--model", help="Index structure: btree (keys in every page) or bplus (keys only in leaves).")] = "btree",
     fanout: Annotated[Optional[int], typer.Option("--fanout", help="bplus: children per internal page, with --keys-per-page (which then sets the leaf capacity).", min=2)] = None,
     fill_factor: Annotated[float, typer.Option("--fill-factor", help="bplus: share of each leaf page filled (0..1].")] = 1.0,
+    truncate_separators: Annotated[bool, typer.Option("--truncate-separators", help="bplus, string keys: shorten separators to the shortest prefix that still separates two leaves.")] = False,
 ) -> None:
     """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
     with _guard():
@@ -257,7 +264,7 @@ def plan_cmd(
                                 child_pointer, key_bytes, model, fill_factor)  # fmt: skip
         _run(database, table, key, log, settings, as_json, export, export_for, force, log_column, count_column,
              distinct_keys, pool_pages, order_column, replay_limit, parse_storage(storage), pool_bytes, svg, html,
-             holdout, smoothing, scan_to, fanout)  # fmt: skip
+             holdout, smoothing, scan_to, fanout, truncate_separators)  # fmt: skip
 
 
 @app.command("demo")

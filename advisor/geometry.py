@@ -59,6 +59,7 @@ class Geometry:
     record_pointer: int
     child_pointer: int
     fill_factor: float = 1.0  # B+-tree leaves: share of each leaf page that is filled
+    separator_bytes: float | None = None  # B+-tree internal pages: shortened separators, if measured
 
     @property
     def entry_bytes(self) -> float:
@@ -80,15 +81,14 @@ class Geometry:
     @property
     def fanout(self) -> int:
         """B+-tree: children per internal page, m pointers and m - 1 separators:
-        F = floor((page_size - page_header + key_bytes) / (key_bytes + child_pointer))."""
-        return int(math.floor((self.page_size - self.page_header + self.key_bytes) / (self.key_bytes + self.child_pointer)))
+        F = floor((page_size - page_header + s) / (s + child_pointer)), s the separator width: the
+        key width, or the measured width of suffix-truncated separators."""
+        s = self.separator_bytes if self.separator_bytes is not None else self.key_bytes
+        return int(math.floor((self.page_size - self.page_header + s) / (s + self.child_pointer)))
 
-    def bplus_formula(self) -> str:
-        return (
-            f"leaves: floor(({self.page_size} - {self.page_header}) x {self.fill_factor:g} / ({self.key_bytes:g} + "
-            f"{self.record_pointer})) = {self.leaf_capacity} keys; internal: floor(({self.page_size} - "
-            f"{self.page_header} + {self.key_bytes:g}) / ({self.key_bytes:g} + {self.child_pointer})) = {self.fanout} children"
-        )
+    @property
+    def untruncated_fanout(self) -> int:
+        return int(math.floor((self.page_size - self.page_header + self.key_bytes) / (self.key_bytes + self.child_pointer)))
 
     def formula(self) -> str:
         return (
@@ -97,7 +97,8 @@ class Geometry:
         )
 
     def as_dict(self) -> dict:
-        return asdict(self) | {"keys_per_page": self.capacity, "leaf_capacity": self.leaf_capacity, "fanout": self.fanout}
+        return asdict(self) | {"keys_per_page": self.capacity, "leaf_capacity": self.leaf_capacity, "fanout": self.fanout,
+                               "untruncated_fanout": self.untruncated_fanout}  # fmt: skip
 
 
 def geometry_for(

@@ -250,9 +250,14 @@ def method_notes(run: dict) -> Text:
 
 
 def _bplus_formula(g: dict) -> str:
-    return (f"B+-tree leaves: floor(({g['page_size']} - {g['page_header']}) x {g['fill_factor']:g} / ({g['key_bytes']:g} key + "
+    sep = g["separator_bytes"] if g.get("separator_bytes") is not None else g["key_bytes"]
+    text = (f"B+-tree leaves: floor(({g['page_size']} - {g['page_header']}) x {g['fill_factor']:g} / ({g['key_bytes']:g} key + "
             f"{g['record_pointer']} record ptr)) = {g['leaf_capacity']} keys; internal: floor(({g['page_size']} - "
-            f"{g['page_header']} + {g['key_bytes']:g}) / ({g['key_bytes']:g} + {g['child_pointer']})) = {g['fanout']} children")  # fmt: skip
+            f"{g['page_header']} + {sep:g}) / ({sep:g} separator + {g['child_pointer']})) = {g['fanout']} children")  # fmt: skip
+    if g.get("separator_bytes") is not None:
+        text += (f" (suffix truncation: separators {sep:.1f} bytes instead of {g['key_bytes']:g}, "
+                 f"fanout {g['untruncated_fanout']} -> {g['fanout']})")  # fmt: skip
+    return text
 
 
 def _formula(g: dict) -> str:

@@ -323,3 +323,28 @@ def load_scans(wl: Workload, scan_to: str) -> tuple[np.ndarray, np.ndarray, np.n
     first = np.asarray(rows["first"], dtype=np.int64)
     last = np.asarray(rows["last"], dtype=np.int64)
     return first, last, np.asarray(rows["w"], dtype=np.float64), Histogram(p, q)
+
+
+def truncated_separator_bytes(wl: Workload, leaf_capacity: int) -> float:
+    """Mean width of suffix-truncated separators between the even split's leaves.
+
+    The separator before leaf t only has to sort above the last key of leaf t-1, so the
+    shortest prefix of leaf t's first key that differs from that key (common prefix + 1 byte)
+    suffices (suffix truncation, common practice for string keys); plus the 2-byte length prefix.
+    """
+    L = int(leaf_capacity)
+    rows = wl.con.execute(
+        f"SELECT a.k::BLOB, b.k::BLOB FROM {KEYS_TABLE} a JOIN {KEYS_TABLE} b ON b.r = a.r + 1 "
+        f"WHERE b.r % {L} = 0"
+    ).fetchall() if wl.key_type.upper().startswith(("VARCHAR", "BLOB")) else []
+    if not rows:
+        return wl.key_bytes
+    widths = []
+    for left, right in rows:
+        lcp = 0
+        for x, y in zip(left, right):
+            if x != y:
+                break
+            lcp += 1
+        widths.append(min(len(right), lcp + 1))
+    return float(np.mean(widths)) + LENGTH_PREFIX

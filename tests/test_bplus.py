@@ -164,3 +164,29 @@ def test_balanced_shape_properties(clustered):
     assert plan.recommended_cost.expected_page_reads <= evaluate(layout, hist).expected_page_reads + 1e-12
     if clustered:  # a misaligned hot run packs into fewer leaves: a pool of 20 or 60 pages gains
         assert pinned_misses(layout, hist, sizes)[-1] < pinned_misses(uni, hist, sizes)[-1]
+
+
+def test_suffix_truncation_raises_fanout_for_string_keys(tmp_path):
+    import json
+
+    import duckdb
+    from typer.testing import CliRunner
+
+    from advisor.cli import app
+
+    db = tmp_path / "s.duckdb"
+    con = duckdb.connect(str(db))
+    # long keys sharing a long prefix, differing early enough that separators stay short
+    con.execute("CREATE TABLE t AS SELECT 'catalogue/section-' || lpad(range::VARCHAR, 6, '0') || '/item-details' AS k "
+                "FROM range(20000)").fetchall()  # fmt: skip
+    con.execute("CREATE TABLE lg AS SELECT k FROM t USING SAMPLE 3000 ROWS").fetchall()
+    con.close()
+    base = ["plan", str(db), "--table", "t", "--key", "k", "--log", "lg", "--model", "bplus", "--json", "--page-size", "4096"]
+    plain = json.loads(CliRunner().invoke(app, base).stdout)["plans"][0]
+    short = json.loads(CliRunner().invoke(app, base + ["--truncate-separators"]).stdout)["plans"][0]
+    g = short["geometry"]
+    assert g["separator_bytes"] < g["key_bytes"]  # prefixes up to the differing digit, plus 2
+    assert short["fanout"] > plain["fanout"] == g["untruncated_fanout"]
+    assert short["optimized"]["expected_page_reads"] <= plain["optimized"]["expected_page_reads"] + 1e-12
+    bad = CliRunner().invoke(app, ["plan", str(db), "--table", "t", "--key", "k", "--truncate-separators"])
+    assert bad.exit_code == 5
