@@ -15,7 +15,7 @@ from .geometry import Geometry
 from .histogram import Histogram
 from .layout import Cost, Layout, check_layout, evaluate
 from .errors import SettingInvalid
-from .optimize import balanced_layout, exact_work, hot_first_layout, lower_bounds, polish, solve_exact, uniform_layout
+from .optimize import balanced_layout, exact_work, heaviest_first_layout, hot_first_layout, lower_bounds, polish, solve_exact, uniform_layout
 from .optimize.bplus import (
     balanced_bplus, bplus_chain, bplus_level_bound, bplus_work, full_leaves_balanced, full_leaves_exact, leaf_count,
     solve_bplus_exact, uniform_bplus,
@@ -40,8 +40,10 @@ def near_candidates(hist: Histogram, c: int, model: str = "btree", fanout: int =
     yield "hot-first", lambda: hot_first_layout(hist, c, 0)
     yield "hot-first, one level more at the root", lambda: hot_first_layout(hist, c, 1)
     yield "hot-first, one level more everywhere", lambda: hot_first_layout(hist, c, 1, everywhere=True)
+    yield "heaviest keys first", lambda: heaviest_first_layout(hist, c)
 
 PROOF_TOLERANCE = 1e-9
+POLISH_TOP = 2
 
 
 @dataclass(frozen=True)
@@ -134,19 +136,23 @@ def plan_capacity(
         if opts.smoothing > 0:
             method += f" on smoothed weights (alpha {opts.smoothing:g})"
     else:
-        best, best_cost, method = uni, evaluate(uni, fit), "even split (nothing better found)"
+        ranked = [(evaluate(uni, fit).expected_page_reads, "even split (nothing better found)", uni)]
         for name, build in near_candidates(fit, c, opts.model, F, opts):
             step(name)
             cand = build()
-            cost = evaluate(cand, fit)
-            if cost.expected_page_reads < best_cost.expected_page_reads:
-                best, best_cost, method = cand, cost, name
-        if opts.polish_ops > 0 and best is not uni:
-            step("exact re-solve of small subtrees")
-            polished = polish(best, fit, opts.polish_ops)
-            cost = evaluate(polished, fit)
-            if cost.expected_page_reads < best_cost.expected_page_reads:
-                best, best_cost, method = polished, cost, method + " + exact small subtrees"
+            ranked.append((evaluate(cand, fit).expected_page_reads, name, cand))
+        ranked.sort(key=lambda x: x[0])
+        best_value, method, best = ranked[0]
+        if opts.polish_ops > 0:
+            # the best before re-solving small subtrees need not be the best after: try the top two
+            for value, name, cand in ranked[:POLISH_TOP]:
+                if cand is uni:
+                    continue
+                step(f"exact re-solve of small subtrees ({name})")
+                polished = polish(cand, fit, opts.polish_ops / POLISH_TOP)
+                v = evaluate(polished, fit).expected_page_reads
+                if v < best_value:
+                    best_value, method, best = v, name + " + exact small subtrees", polished
         best_cost = evaluate(best, hist)
         proven = False
     if opts.check:
