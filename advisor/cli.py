@@ -111,7 +111,7 @@ def save_pictures(run: dict, svg: Path | None, html: Path | None, replace: bool)
 def _run(database, table, key, log, settings, as_json, export, export_for, force, log_column=None, count_column=None,
          distinct_keys=False, pool_pages=None, order_column=None, replay_limit=1_000_000, storage=None,
          pool_bytes=None, svg=None, html=None, holdout=0.2, smoothing=0.0, scan_to=None, fanout=None,
-         truncate=False):  # fmt: skip
+         truncate=False, memory_limit=None):  # fmt: skip
     stdout = Console(highlight=False)
     if export is not None:
         check_destination(export)
@@ -122,7 +122,7 @@ def _run(database, table, key, log, settings, as_json, export, export_for, force
             if not picture.parent.exists():
                 raise OutputRefused(f"directory {picture.parent} does not exist")
     t0 = time.perf_counter()
-    with load_workload(database, table, key, log, log_column, count_column, distinct_keys) as wl:
+    with load_workload(database, table, key, log, log_column, count_column, distinct_keys, memory_limit) as wl:
         t_hist = time.perf_counter() - t0
         targets = capacities(settings, wl.key_bytes)
         if truncate:
@@ -253,6 +253,7 @@ def plan_cmd(
     fanout: Annotated[Optional[int], typer.Option("--fanout", help="bplus: children per internal page, with --keys-per-page (which then sets the leaf capacity).", min=2)] = None,
     fill_factor: Annotated[float, typer.Option("--fill-factor", help="bplus: share of each leaf page filled (0..1].")] = 1.0,
     truncate_separators: Annotated[bool, typer.Option("--truncate-separators", help="bplus, string keys: shorten separators to the shortest prefix that still separates two leaves.")] = False,
+    memory_limit: Annotated[Optional[str], typer.Option("--memory-limit", help="Cap DuckDB's memory while reading the log, e.g. 2GB (it spills to disk beyond).")] = None,
 ) -> None:
     """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
     with _guard():
@@ -264,7 +265,7 @@ def plan_cmd(
                                 child_pointer, key_bytes, model, fill_factor)  # fmt: skip
         _run(database, table, key, log, settings, as_json, export, export_for, force, log_column, count_column,
              distinct_keys, pool_pages, order_column, replay_limit, parse_storage(storage), pool_bytes, svg, html,
-             holdout, smoothing, scan_to, fanout, truncate_separators)  # fmt: skip
+             holdout, smoothing, scan_to, fanout, truncate_separators, memory_limit)  # fmt: skip
 
 
 @app.command("demo")

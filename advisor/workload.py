@@ -17,7 +17,7 @@ from pathlib import Path
 import duckdb
 import numpy as np
 
-from .errors import AdvisorError, InputBusy, InputInvalid, InputNotFound
+from .errors import AdvisorError, InputBusy, InputInvalid, InputNotFound, SettingInvalid
 from .geometry import LENGTH_PREFIX, fixed_key_bytes
 from .histogram import Histogram
 
@@ -146,6 +146,7 @@ def load_workload(
     log_column: str | None = None,
     count_column: str | None = None,
     distinct_keys: bool = False,
+    memory_limit: str | None = None,
 ) -> Workload:
     """Open ``database`` read-only and build the histogram of ``log`` against ``table.key``.
 
@@ -157,6 +158,12 @@ def load_workload(
     they are counted in ``info``.
     """
     con = open_database(database)
+    if memory_limit:
+        try:
+            run_sql(con, f"SET memory_limit = {sql_string(memory_limit)}")
+        except duckdb.Error:
+            con.close()
+            raise SettingInvalid(f"memory limit {memory_limit!r} is not a size DuckDB understands (e.g. 2GB)") from None
     try:
         return _load(con, table, key, log, log_column, count_column, distinct_keys)
     except (AdvisorError, KeyboardInterrupt):

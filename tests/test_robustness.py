@@ -225,3 +225,8 @@ def test_large_log_is_aggregated_in_duckdb(tmp_path):
     with load_workload(db, "t", "k", "lg") as wl:
         assert wl.hist.p.shape == (20000,) and wl.hist.q.shape == (20001,)
         assert wl.hist.total == 5_000_000
+
+
+def test_memory_limit_option(basic):
+    assert plan(basic, "--json", "--memory-limit", "500MB").exit_code == 0
+    one_line_error(plan(basic, "--memory-limit", "lots"), 5, "memory limit")
