@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Callable
 
@@ -15,8 +15,16 @@ from .geometry import (
     Geometry,
     geometry_for,
 )
+from .balanced import balanced_bplus_layout
+from .bufferpool import pinned_misses, pool_figures
 from .histogram import Histogram
+from .holdout import holdout_rows
+from .layout import evaluate
+from .pagesize import PROFILES, StorageProfile, default_pool_bytes, page_size_table
 from .planner import Plan, PlanOptions, plan_capacity
+from .scans import scan_figures
+from .serialize import cost_dict, run_dict
+from .workload import Workload, load_replay, load_scans, load_split, truncated_separator_bytes
 
 
 @dataclass
@@ -84,3 +92,69 @@ def export_paths(path: str | Path, plans: list[Plan], only: int | None = None) -
         label = f"{p.page_size}B" if p.page_size else f"c{p.keys_per_page}"
         out.append((p, path.with_name(f"{path.stem}-{label}{path.suffix}")))
     return out
+
+
+@dataclass
+class Request:
+    """Everything a run asks for beyond the workload itself."""
+
+    settings: PageSettings = field(default_factory=PageSettings)
+    smoothing: float = 0.0
+    fanout: int | None = None  # bplus with keys_per_page
+    truncate_separators: bool = False
+    pool_pages: list[int] | None = None
+    order_column: str | None = None  # enables the LRU replay and the held-out check
+    replay_limit: int = 1_000_000
+    holdout: float = 0.2
+    scan_to: str | None = None
+    storage: StorageProfile | None = None
+    pool_bytes: int | None = None
+
+
+@dataclass
+class Analysis:
+    plans: list[Plan]
+    run: dict  # the JSON-ready result the report is drawn from
+
+
+def analyse(wl: Workload, req: Request, on_plan: Callable[[int, str], None] | None = None) -> Analysis:
+    """Plan every capacity and add the buffer-pool, balanced, scan, held-out and page-size figures."""
+    s = req.settings
+    targets = capacities(s, wl.key_bytes)
+    if req.truncate_separators:
+        if s.model != "bplus":
+            raise SettingInvalid("--truncate-separators applies to --model bplus")
+        targets = [(c, replace(g, separator_bytes=truncated_separator_bytes(wl, c)) if g else g) for c, g in targets]
+    unique = list({(c, g.page_size if g else None): (c, g) for c, g in targets}.values())
+    options = PlanOptions(smoothing=req.smoothing, model=s.model, fanout=req.fanout or 0)
+    plans = advise(wl.hist, unique, options, on_plan)
+    if (req.order_column or req.scan_to) and not wl.log:
+        raise SettingInvalid("--order-column and --scan-to need --log")
+    replay = load_replay(wl, req.order_column, req.replay_limit) if req.order_column else None
+    pools = [pool_figures(p.uniform, p.recommended, wl.hist, replay, req.pool_pages) for p in plans]
+    inputs = {
+        "database": wl.info.get("database"), "table": wl.table, "key": wl.key, "key_type": wl.key_type,
+        "key_bytes": round(wl.key_bytes, 2), "log": wl.log or "(none)",
+        **{k: v for k, v in wl.info.items() if k not in ("log_source", "weight_sql", "database")},
+        "replayed_lookups": int(replay.outcomes.size) if replay is not None else None,
+    }  # fmt: skip
+    run = run_dict(wl.hist, plans, inputs, [], pools)
+    if s.model == "bplus":
+        for entry, p in zip(run["plans"], plans):
+            layout, sizes, how = balanced_bplus_layout(wl.hist, p.uniform, req.pool_pages)
+            rows = zip(sizes, pinned_misses(p.uniform, wl.hist, sizes), pinned_misses(layout, wl.hist, sizes))
+            entry["balanced"] = cost_dict(evaluate(layout, wl.hist)) | {"method": how, "buffer_pool": [
+                {"pool_pages": b, "uniform_pinned": u, "balanced_pinned": m} for b, u, m in rows]}  # fmt: skip
+    if req.scan_to:
+        first, last, weight, points = load_scans(wl, req.scan_to)
+        for entry, p in zip(run["plans"], plans):
+            entry["range_scans"] = scan_figures(p, points, first, last, weight)
+    if req.order_column and req.holdout > 0:
+        train, test = load_split(wl, req.order_column, req.holdout)
+        alphas = [0.0] + ([req.smoothing] if req.smoothing > 0 else [])
+        run["holdout"] = {"fraction": req.holdout, "train_lookups": train.total, "test_lookups": test.total,
+                          "rows": holdout_rows(train, test, unique, alphas, options)}  # fmt: skip
+    choice = page_size_table(plans, wl.hist, req.storage or PROFILES["nvme"], req.pool_bytes or default_pool_bytes(plans))
+    if choice["rows"]:
+        run["page_size_choice"] = choice
+    return Analysis(plans, run)

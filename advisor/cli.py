@@ -21,23 +21,13 @@ import typer
 from rich.console import Console
 from rich.progress import BarColumn, Progress, SpinnerColumn, TextColumn, TimeElapsedColumn
 
-from .advise import PageSettings, advise, capacities, export_paths
+from .advise import PageSettings, Request, analyse, export_paths
 from .demo import DEMO_KEY, DEMO_LOG, DEMO_TABLE, build_demo
-from .errors import AdvisorError
+from .errors import AdvisorError, OutputRefused, SettingInvalid
 from .export import check_destination, check_target, write_layout
-from .serialize import run_dict
+from .pagesize import PROFILES, StorageProfile
 from .report import render_run
-from .workload import load_replay, load_scans, load_split, load_workload, truncated_separator_bytes
-from dataclasses import replace
-from .scans import scan_figures
-from .holdout import holdout_rows
-from .planner import PlanOptions
-from .bufferpool import pinned_misses, pool_figures
-from .balanced import balanced_bplus_layout
-from .layout import evaluate
-from .serialize import cost_dict
-from .pagesize import PROFILES, StorageProfile, default_pool_bytes, page_size_table
-from .errors import OutputRefused, SettingInvalid
+from .workload import load_workload
 
 app = typer.Typer(
     add_completion=False,
@@ -108,11 +98,9 @@ def save_pictures(run: dict, svg: Path | None, html: Path | None, replace: bool)
             tmp.unlink(missing_ok=True)
 
 
-def _run(database, table, key, log, settings, as_json, export, export_for, force, log_column=None, count_column=None,
-         distinct_keys=False, pool_pages=None, order_column=None, replay_limit=1_000_000, storage=None,
-         pool_bytes=None, svg=None, html=None, holdout=0.2, smoothing=0.0, scan_to=None, fanout=None,
-         truncate=False, memory_limit=None):  # fmt: skip
-    stdout = Console(highlight=False)
+def _run(database, table, key, log, request: Request, as_json, export, export_for, force, log_column=None,
+         count_column=None, distinct_keys=False, memory_limit=None, svg=None, html=None):  # fmt: skip
+    """Open, analyse, export, render: the whole command, with no figures computed here."""
     if export is not None:
         check_destination(export)
     for picture in (svg, html):
@@ -123,86 +111,22 @@ def _run(database, table, key, log, settings, as_json, export, export_for, force
                 raise OutputRefused(f"directory {picture.parent} does not exist")
     t0 = time.perf_counter()
     with load_workload(database, table, key, log, log_column, count_column, distinct_keys, memory_limit) as wl:
+        wl.info["database"] = str(database)
         t_hist = time.perf_counter() - t0
-        targets = capacities(settings, wl.key_bytes)
-        if truncate:
-            if settings.model != "bplus":
-                raise SettingInvalid("--truncate-separators applies to --model bplus")
-            targets = [(c, replace(g, separator_bytes=truncated_separator_bytes(wl, c)) if g else g) for c, g in targets]
-        seen, unique = set(), []
-        for c, g in targets:
-            tag = (c, g.page_size if g else None)
-            if tag not in seen:
-                seen.add(tag)
-                unique.append((c, g))
         with _progress(not as_json and sys.stderr.isatty()) as bar:
-            task = bar.add_task("planning", total=len(unique))
-
-            def on_plan(i: int, step: str) -> None:
-                bar.update(task, completed=i, description=f"c={unique[i][0]}: {step}")
-
-            options = PlanOptions(smoothing=smoothing, model=settings.model, fanout=fanout or 0)
-            plans = advise(wl.hist, unique, options, on_plan=on_plan)
-            bar.update(task, completed=len(unique))
-        replay = None
-        if order_column:
-            if not log:
-                raise SettingInvalid("--order-column needs --log")
-            replay = load_replay(wl, order_column, replay_limit)
-        pools = [pool_figures(p.uniform, p.recommended, wl.hist, replay, pool_pages) for p in plans]
-        balanced = None
-        if settings.model == "bplus":
-            balanced = []
-            for p in plans:
-                layout, sizes, how = balanced_bplus_layout(wl.hist, p.uniform, pool_pages)
-                cost = evaluate(layout, wl.hist)
-                balanced.append(cost_dict(cost) | {"method": how, "buffer_pool": [
-                    {"pool_pages": b, "uniform_pinned": u, "balanced_pinned": m}
-                    for b, u, m in zip(sizes, pinned_misses(p.uniform, wl.hist, sizes), pinned_misses(layout, wl.hist, sizes))
-                ]})  # fmt: skip
-        scans = None
-        if scan_to:
-            if not log:
-                raise SettingInvalid("--scan-to needs --log")
-            first, last, weight, points = load_scans(wl, scan_to)
-            scans = [scan_figures(p, points, first, last, weight) for p in plans]
-        held = None
-        if order_column and holdout > 0:
-            train, test = load_split(wl, order_column, holdout)
-            alphas = [0.0] + ([smoothing] if smoothing > 0 else [])
-            held = {"fraction": holdout, "train_lookups": train.total, "test_lookups": test.total,
-                    "rows": holdout_rows(train, test, unique, alphas, options)}  # fmt: skip
-        profile = storage if storage is not None else PROFILES["nvme"]
-        choice = page_size_table(plans, wl.hist, profile, pool_bytes or default_pool_bytes(plans))
-        written: list[str] = []
+            task = bar.add_task("planning")
+            result = analyse(wl, request, lambda i, step: bar.update(task, description=f"plan {i + 1}: {step}"))
+        run = result.run
         if export is not None:
-            targets_out = export_paths(export, plans, export_for)
+            targets_out = export_paths(export, result.plans, export_for)
             for _, path in targets_out:
                 check_target(path, force)
-            for plan, path in targets_out:
-                written.append(str(write_layout(wl, plan.recommended, path, replace=force)))
-        inputs = {
-            "database": str(database), "table": wl.table, "key": wl.key, "key_type": wl.key_type,
-            "key_bytes": round(wl.key_bytes, 2), "log": wl.log or "(none)",
-            **{k: v for k, v in wl.info.items() if k not in ("log_source", "weight_sql")},
-            "replayed_lookups": int(replay.outcomes.size) if replay is not None else None,
-        }  # fmt: skip
-        run = run_dict(wl.hist, plans, inputs, written, pools)
-        if choice["rows"]:
-            run["page_size_choice"] = choice
-        if held is not None:
-            run["holdout"] = held
-        if scans is not None:
-            for entry, figures in zip(run["plans"], scans):
-                entry["range_scans"] = figures
-        if balanced is not None:
-            for entry, figures in zip(run["plans"], balanced):
-                entry["balanced"] = figures
+            run["exports"] = [str(write_layout(wl, plan.recommended, path, replace=force)) for plan, path in targets_out]
         run["timings"] = {"histogram_seconds": round(t_hist, 3), "total_seconds": round(time.perf_counter() - t0, 3)}
     if as_json:
         print(json.dumps(run, indent=2, default=str))
     else:
-        stdout.print(render_run(run))
+        Console(highlight=False).print(render_run(run))
     if svg or html:
         save_pictures(run, svg, html, force)
 
@@ -263,9 +187,10 @@ def plan_cmd(
             raise SettingInvalid("--model bplus with --keys-per-page needs --fanout")
         settings = PageSettings(list(page_size or []), list(keys_per_page or []), page_header, record_pointer,
                                 child_pointer, key_bytes, model, fill_factor)  # fmt: skip
-        _run(database, table, key, log, settings, as_json, export, export_for, force, log_column, count_column,
-             distinct_keys, pool_pages, order_column, replay_limit, parse_storage(storage), pool_bytes, svg, html,
-             holdout, smoothing, scan_to, fanout, truncate_separators, memory_limit)  # fmt: skip
+        request = Request(settings, smoothing, fanout, truncate_separators, list(pool_pages or []) or None, order_column,
+                          replay_limit, holdout, scan_to, parse_storage(storage), pool_bytes)  # fmt: skip
+        _run(database, table, key, log, request, as_json, export, export_for, force, log_column, count_column,
+             distinct_keys, memory_limit, svg, html)  # fmt: skip
 
 
 @app.command("demo")
@@ -285,9 +210,9 @@ def demo_cmd(
     """Build the invented demo catalogue (once per seed) and print the full report on it."""
     with _guard():
         db = build_demo(directory, seed=seed, keys=keys, lookups=lookups)
-        settings = PageSettings(list(page_size or []), list(keys_per_page or []))
-        _run(db, DEMO_TABLE, DEMO_KEY, DEMO_LOG, settings, as_json, export, None, force,
-             order_column="lookup_seq", replay_limit=300_000, svg=svg, html=html)  # fmt: skip
+        request = Request(PageSettings(list(page_size or []), list(keys_per_page or [])), order_column="lookup_seq",
+                          replay_limit=300_000)  # fmt: skip
+        _run(db, DEMO_TABLE, DEMO_KEY, DEMO_LOG, request, as_json, export, None, force, svg=svg, html=html)
 
 
 def main() -> None:  # pragma: no cover - console script entry

@@ -191,7 +191,7 @@ def _check_bplus(layout: Layout) -> None:
         return
     if P == 0 or layout.leaf is None or layout.leaf.shape != (P,):
         raise LayoutInvalid("keys but no pages, or no leaf flags")
-    keys, start, parent, slot, leaf = layout.page_keys, layout.page_start, layout.parent, layout.slot, layout.leaf
+    start, parent, slot, leaf = layout.page_start, layout.parent, layout.slot, layout.leaf
     sizes = np.diff(start)
     if parent[0] != -1 or np.any(parent[1:] < 0) or np.any(parent[1:] >= np.arange(1, P)):
         raise LayoutInvalid("page 0 must be the only root and parents must precede children")

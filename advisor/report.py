@@ -125,7 +125,7 @@ def page_size_panel(run: dict) -> Table | None:
     pr = ch["profile"]
     t = Table(title=f"Page size choice on {pr['name']} storage ({pr['latency_us']:g} µs per read + "
                     f"{pr['bandwidth_mb_s']:g} MB/s; a rough common-practice profile)", title_justify="left")  # fmt: skip
-    for name in ("page bytes", "µs per read", "even µs", "advised µs", f"pool pages", "even µs, pool", "advised µs, pool"):
+    for name in ("page bytes", "µs per read", "even µs", "advised µs", "pool pages", "even µs, pool", "advised µs, pool"):
         t.add_column(name, justify="right")
     for r in ch["rows"]:
         mark = lambda size, key: " ◀" if size == ch[key] else ""  # noqa: E731

@@ -20,7 +20,7 @@ from gen import WORKLOADS, popularity  # noqa: E402
 
 from advisor.histogram import Histogram  # noqa: E402
 from advisor.layout import evaluate  # noqa: E402
-from advisor.optimize import heaviest_first_layout, lower_bounds, min_height, solve_exact, uniform_layout  # noqa: E402
+from advisor.optimize import lower_bounds, min_height, solve_exact, uniform_layout  # noqa: E402
 from advisor.planner import PlanOptions, near_candidates, plan_capacity  # noqa: E402
 
 
@@ -40,10 +40,13 @@ def main() -> None:
     args = ap.parse_args()
     n = args.n
     names = [name for name, _ in near_candidates(Histogram(np.ones(1), np.ones(2)), 1)]
-    short = ["bal", "bal.1", "hot", "hot+1r", "hot+1e"]
+    abbrev = {"weight-balanced": "bal", "weight-balanced, spread 0.1": "bal.1", "hot-first": "hot",
+              "hot-first, one level more at the root": "hot+1r", "hot-first, one level more everywhere": "hot+1e",
+              "heaviest keys first": "greedy"}  # fmt: skip
+    short = [abbrev.get(nm, nm[:7]) for nm in names]
     print(f"n = {n:,}; figures are expected page reads / exact optimum - 1, in %")
     print("columns: " + "; ".join(f"{s} = {nm}" for s, nm in zip(short, names)))
-    head = f"{'workload':<20} {'c':>3} {'h':>2} {'opt':>6} {'exact s':>7} {'even':>6} {'greedy':>7} " + \
+    head = f"{'workload':<20} {'c':>3} {'h':>2} {'opt':>6} {'exact s':>7} {'even':>6} " + \
            " ".join(f"{s:>7}" for s in short) + f" {'planner':>8} {'plan s':>6} {'bound':>6} {'entropy':>8}"  # fmt: skip
     print(head)
     print("-" * len(head))
@@ -62,7 +65,6 @@ def main() -> None:
             print(
                 f"{kind:<20} {c:>3} {min_height(n, c):>2} {opt:>6.3f} {t_exact:>7.1f} "
                 f"{rel(evaluate(uniform_layout(n, c), h).expected_page_reads):>6.1f} "
-                f"{rel(evaluate(heaviest_first_layout(h, c), h).expected_page_reads):>7.1f} "
                 + " ".join(f"{x:>7.1f}" for x in cells)
                 + f" {rel(plan.recommended_cost.expected_page_reads):>8.2f} {t_plan:>6.2f} "
                 f"{rel(b['level_capacity']):>6.1f} {rel(b['entropy']):>8.1f}",

@@ -9,7 +9,7 @@ import pytest
 
 from advisor.errors import LayoutInvalid
 from advisor.histogram import Histogram
-from advisor.layout import Layout, LayoutBuilder, check_layout, evaluate
+from advisor.layout import LayoutBuilder, check_layout, evaluate
 from advisor.optimize import min_height, uniform_layout
 
 from .conftest import random_hist, replay_cost
@@ -84,7 +84,6 @@ def test_uniform_has_minimum_height(n, c):
     assert cost.height == min_height(n, c)
     if n:
         sizes = layout.page_sizes()
-        depth = layout.depths()
         # internal pages hold as few keys as the height allows; leaves within one of each other
         leaves = np.setdiff1d(np.arange(layout.pages), layout.parent)
         assert sizes[leaves].max() - sizes[leaves].min() <= max(1, c)

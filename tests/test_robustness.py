@@ -12,13 +12,10 @@ import time
 from pathlib import Path
 
 import duckdb
-import numpy as np
 import pytest
 from typer.testing import CliRunner
 
 from advisor.cli import app
-from advisor.export import read_layout
-from advisor.layout import evaluate
 from advisor.workload import load_workload
 
 runner = CliRunner()
