@@ -20,7 +20,7 @@ from .bufferpool import pinned_misses, pool_figures
 from .histogram import Histogram
 from .holdout import holdout_rows
 from .layout import evaluate
-from .pagesize import PROFILES, StorageProfile, default_pool_bytes, page_size_table
+from .pagesize import PROFILES, StorageProfile, best_choice, default_pool_bytes, page_size_table
 from .planner import Plan, PlanOptions, plan_capacity
 from .scans import scan_figures
 from .serialize import cost_dict, run_dict
@@ -118,10 +118,26 @@ class Analysis:
 
 
 def analyse(wl: Workload, req: Request, on_plan: Callable[[int, str], None] | None = None) -> Analysis:
-    """Plan every capacity and add the buffer-pool, balanced, scan, held-out and page-size figures."""
+    """Plan every capacity and add the buffer-pool, balanced, scan, held-out and page-size figures.
+
+    ``settings.model == "both"`` plans the classic B-tree and the B+-tree side by side: one list
+    of plans (each says its model), so a scan-heavy or cache-bound workload shows which suits it.
+    """
+    if req.settings.model == "both":
+        first = analyse(wl, replace(req, settings=replace(req.settings, model="btree")), on_plan)
+        pool = req.pool_bytes or default_pool_bytes(first.plans)  # one pool in bytes for both structures
+        second = analyse(wl, replace(req, settings=replace(req.settings, model="bplus"), pool_bytes=pool), on_plan)
+        parts = [first, second]
+        run = parts[0].run | {"plans": parts[0].run["plans"] + parts[1].run["plans"]}
+        if "holdout" in run:
+            run["holdout"] = run["holdout"] | {"rows": run["holdout"]["rows"] + parts[1].run["holdout"]["rows"]}
+        if "page_size_choice" in run:
+            both = run["page_size_choice"]["rows"] + parts[1].run["page_size_choice"]["rows"]
+            run["page_size_choice"] = run["page_size_choice"] | {"rows": both} | best_choice(both)
+        return Analysis(parts[0].plans + parts[1].plans, run)
     s = req.settings
     targets = capacities(s, wl.key_bytes)
-    if req.truncate_separators:
+    if req.truncate_separators and s.model != "both":
         if s.model != "bplus":
             raise SettingInvalid("--truncate-separators applies to --model bplus")
         targets = [(c, replace(g, separator_bytes=truncated_separator_bytes(wl, c)) if g else g) for c, g in targets]

@@ -173,7 +173,7 @@ def plan_cmd(
     holdout: Annotated[float, typer.Option("--holdout", help="With --order-column: share of the latest lookups held out to judge a plan fitted on the rest (0 turns it off).", min=0.0, max=0.9)] = 0.2,
     smoothing: Annotated[float, typer.Option("--smoothing", help="Blend the fitted histogram with uniform weight: 0 none .. 1 all uniform.", min=0.0, max=1.0)] = 0.0,
     scan_to: Annotated[Optional[str], typer.Option("--scan-to", help="Log column with a range scan's upper bound; rows where it is set scan from the looked-up value to it.")] = None,
-    model: Annotated[str, typer.Option("--model", help="Index structure: btree (keys in every page) or bplus (keys only in leaves).")] = "btree",
+    model: Annotated[str, typer.Option("--model", help="Index structure: btree (keys in every page), bplus (keys only in leaves) or both side by side.")] = "btree",
     fanout: Annotated[Optional[int], typer.Option("--fanout", help="bplus: children per internal page, with --keys-per-page (which then sets the leaf capacity).", min=2)] = None,
     fill_factor: Annotated[float, typer.Option("--fill-factor", help="bplus: share of each leaf page filled (0..1].")] = 1.0,
     truncate_separators: Annotated[bool, typer.Option("--truncate-separators", help="bplus, string keys: shorten separators to the shortest prefix that still separates two leaves.")] = False,
@@ -181,9 +181,9 @@ def plan_cmd(
 ) -> None:
     """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
     with _guard():
-        if model not in ("btree", "bplus"):
-            raise SettingInvalid(f"--model must be btree or bplus, got {model!r}")
-        if model == "bplus" and keys_per_page and not fanout:
+        if model not in ("btree", "bplus", "both"):
+            raise SettingInvalid(f"--model must be btree, bplus or both, got {model!r}")
+        if model in ("bplus", "both") and keys_per_page and not fanout:
             raise SettingInvalid("--model bplus with --keys-per-page needs --fanout")
         settings = PageSettings(list(page_size or []), list(keys_per_page or []), page_header, record_pointer,
                                 child_pointer, key_bytes, model, fill_factor)  # fmt: skip

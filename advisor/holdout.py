@@ -30,7 +30,7 @@ def holdout_rows(train: Histogram, test: Histogram, targets: list[tuple[int, Geo
             out_u = evaluate(plan.uniform, test).expected_page_reads
             out_o = evaluate(plan.recommended, test).expected_page_reads
             rows.append({
-                "keys_per_page": c, "page_size": g.page_size if g else None, "smoothing": alpha,
+                "keys_per_page": c, "page_size": g.page_size if g else None, "smoothing": alpha, "model": opts.model,
                 "in_sample": {"uniform": ins_u, "optimized": ins_o, "saving": _saving(ins_u, ins_o)},
                 "held_out": {"uniform": out_u, "optimized": out_o, "saving": _saving(out_u, out_o)},
             })  # fmt: skip

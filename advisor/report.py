@@ -17,6 +17,11 @@ FOOTER = (
 )
 
 
+def _c(p: dict) -> str:
+    """Capacity label of a plan or row: keys per page, marked B+ for a B+-tree (keys per leaf)."""
+    return f"{p['keys_per_page']} B+" if p.get("model") == "bplus" else str(p["keys_per_page"])
+
+
 def _pct(x: float) -> str:
     return f"{100 * x:.1f}%"
 
@@ -53,8 +58,9 @@ def traffic_panel(run: dict) -> Panel:
 
 
 def plans_table(run: dict) -> Table:
-    bplus = bool(run["plans"]) and run["plans"][0].get("model") == "bplus"
-    what = "B+-tree, c = keys per leaf" if bplus else "c = keys per page"
+    models = {p.get("model") for p in run["plans"]}
+    what = {frozenset({"bplus"}): "B+-tree, c = keys per leaf", frozenset({"btree"}): "c = keys per page"}.get(
+        frozenset(models), "c = keys per page; c B+ = keys per leaf of a B+-tree")
     t = Table(title=f"Page reads per lookup: even split vs advised layout ({what})", title_justify="left")
     for name in ("page bytes", "c", "even split", "advised", "saved", "lower bound", "gap", "optimum"):
         t.add_column(name, justify="left" if name == "optimum" else "right")
@@ -62,7 +68,7 @@ def plans_table(run: dict) -> Table:
         o, u = p["optimized"], p["uniform"]
         t.add_row(
             f"{p['page_size']:,}" if p["page_size"] else "-",
-            str(p["keys_per_page"]),
+            _c(p),
             f"{u['expected_page_reads']:.3f}",
             f"[bold]{o['expected_page_reads']:.3f}[/bold]",
             _pct(p["saving"]),
@@ -94,7 +100,7 @@ def depth_table(run: dict) -> Table:
             cells.append(f"{_pct(a)}→{_pct(b)}")
         pages = f"{p['uniform']['pages']:,}→{p['optimized']['pages']:,}"
         height = f"{p['uniform']['height']}→{p['optimized']['height']}"
-        t.add_row(str(p["keys_per_page"]), pages, height, *cells)
+        t.add_row(_c(p), pages, height, *cells)
     return t
 
 
@@ -108,7 +114,7 @@ def pool_table(run: dict) -> Table | None:
         t.add_column(name, justify="right")
     for p in run["plans"]:
         for i, row in enumerate(p["buffer_pool"]):
-            cells = [str(p["keys_per_page"]) if i == 0 else "", f"{row['pool_pages']:,}", _pct(row["share_of_index"]),
+            cells = [_c(p) if i == 0 else "", f"{row['pool_pages']:,}", _pct(row["share_of_index"]),
                      f"{row['uniform_pinned']:.3f}", f"[bold]{row['optimized_pinned']:.3f}[/bold]"]  # fmt: skip
             if lru:
                 cells += [f"{row['uniform_lru']:.3f}", f"[bold]{row['optimized_lru']:.3f}[/bold]"]
@@ -128,11 +134,13 @@ def page_size_panel(run: dict) -> Table | None:
     for name in ("page bytes", "µs per read", "even µs", "advised µs", "pool pages", "even µs, pool", "advised µs, pool"):
         t.add_column(name, justify="right")
     for r in ch["rows"]:
-        mark = lambda size, key: " ◀" if size == ch[key] else ""  # noqa: E731
-        t.add_row(f"{r['page_size']:,}", f"{r['read_us']:.1f}", f"{r['uniform_us']:.1f}",
-                  f"[bold]{r['optimized_us']:.1f}[/bold]{mark(r['page_size'], 'best_page_size')}", f"{r['pool_pages']:,}",
-                  f"{r['uniform_with_pool_us']:.1f}",
-                  f"[bold]{r['optimized_with_pool_us']:.1f}[/bold]{mark(r['page_size'], 'best_page_size_with_pool')}")  # fmt: skip
+        def mark(key: str, r=r) -> str:
+            return " ◀" if (r["page_size"], r.get("model")) == (ch[f"best_page_size{key}"], ch[f"best_model{key}"]) else ""
+
+        label = f"{r['page_size']:,}" + (" B+" if r.get("model") == "bplus" else "")
+        t.add_row(label, f"{r['read_us']:.1f}", f"{r['uniform_us']:.1f}", f"[bold]{r['optimized_us']:.1f}[/bold]{mark('')}",
+                  f"{r['pool_pages']:,}", f"{r['uniform_with_pool_us']:.1f}",
+                  f"[bold]{r['optimized_with_pool_us']:.1f}[/bold]{mark('_with_pool')}")  # fmt: skip
     t.caption = (f"time per lookup = page reads × (latency + page size / bandwidth); pool: {ch['pool_bytes']:,} bytes "
                  f"pinned with the most-read pages; ◀ = fastest")  # fmt: skip
     t.caption_justify = "left"
@@ -140,15 +148,15 @@ def page_size_panel(run: dict) -> Table | None:
 
 
 def balanced_table(run: dict) -> Table | None:
-    if not run["plans"] or "balanced" not in run["plans"][0]:
+    if not any("balanced" in p for p in run["plans"]):
         return None
     t = Table(title="Balanced B+-tree (all leaves at one depth): page misses per lookup, pinned pool", title_justify="left")
     for name in ("c", "pool pages", "even split", "hot leaves packed", "how"):
         t.add_column(name, justify="left" if name == "how" else "right")
-    for p in run["plans"]:
+    for p in (p for p in run["plans"] if "balanced" in p):
         bal = p["balanced"]
         for i, r in enumerate(bal["buffer_pool"]):
-            t.add_row(str(p["keys_per_page"]) if i == 0 else "", f"{r['pool_pages']:,}", f"{r['uniform_pinned']:.3f}",
+            t.add_row(_c(p) if i == 0 else "", f"{r['pool_pages']:,}", f"{r['uniform_pinned']:.3f}",
                       f"[bold]{r['balanced_pinned']:.3f}[/bold]", bal["method"] if i == 0 else "",
                       end_section=i == len(bal["buffer_pool"]) - 1)  # fmt: skip
     t.caption = "every lookup reads the full height in both; only the cache benefits. Near-optimal, no bound yet."
@@ -167,7 +175,7 @@ def scans_table(run: dict) -> Table | None:
     for p in run["plans"]:
         s = p["range_scans"]
         u, o = s["uniform"], s["optimized"]
-        t.add_row(str(p["keys_per_page"]), f"{u['point_lookup_reads']:.3f}", f"[bold]{o['point_lookup_reads']:.3f}[/bold]",
+        t.add_row(_c(p), f"{u['point_lookup_reads']:.3f}", f"[bold]{o['point_lookup_reads']:.3f}[/bold]",
                   f"{u['scan_pages']:.2f}", f"[bold]{o['scan_pages']:.2f}[/bold]", f"{u['combined']:.3f}",
                   f"[bold]{o['combined']:.3f}[/bold]")  # fmt: skip
     t.caption = ("A scan reads every page holding a key in its range and every ancestor of those pages, each once. "
@@ -186,7 +194,7 @@ def holdout_table(run: dict) -> Table | None:
         t.add_column(name, justify="right")
     for r in h["rows"]:
         i, o = r["in_sample"], r["held_out"]
-        t.add_row(str(r["keys_per_page"]), f"{r['smoothing']:g}", f"{i['uniform']:.3f}", f"{i['optimized']:.3f}",
+        t.add_row(_c(r), f"{r['smoothing']:g}", f"{i['uniform']:.3f}", f"{i['optimized']:.3f}",
                   _pct(i["saving"]), f"{o['uniform']:.3f}", f"{o['optimized']:.3f}", f"[bold]{_pct(o['saving'])}[/bold]")  # fmt: skip
     t.caption = "page reads per lookup; a large drop from fit to later savings means the plan overfits its sample"
     t.caption_justify = "left"
@@ -218,7 +226,7 @@ def charts(run: dict) -> Table | None:
         u, o = p["uniform"]["answered_at_depth"], p["optimized"]["answered_at_depth"]
         for d in range(max(len(u), len(o))):
             a, b = (u[d] if d < len(u) else 0.0), (o[d] if d < len(o) else 0.0)
-            t.add_row(str(p["keys_per_page"]) if first else "", f"depth {d + 1}",
+            t.add_row(_c(p) if first else "", f"depth {d + 1}",
                       _bar(a, 1.0, "grey58") + Text(f" {_pct(a)}"), _bar(b, 1.0, "green") + Text(f" {_pct(b)}"))  # fmt: skip
             first = False
         rows = p.get("buffer_pool", [])
@@ -240,10 +248,10 @@ def method_notes(run: dict) -> Text:
             cap = f"keys/page = {g and _formula(g) or str(p['keys_per_page']) + ' (given)'}"
         lines.append(f"c={p['keys_per_page']}: {cap}; method: {p['optimized']['method']}; "
                      f"bounds: " + ", ".join(f"{k} {v:.3f}" for k, v in p["lower_bounds"].items()))  # fmt: skip
-    if run["plans"] and run["plans"][0].get("model") == "bplus":
+    if any(p.get("model") == "bplus" for p in run["plans"]):
         lines.append("Cost model (B+-tree, leaves at any depth): every lookup reads the pages from the root to the leaf "
                      "covering it; a value between two leaves goes to the left one.")  # fmt: skip
-    else:
+    if any(p.get("model") != "bplus" for p in run["plans"]):
         lines.append("Cost model: a hit reads every page from the root to the page holding the key; a miss reads "
                      "pages until it meets an empty child slot.")  # fmt: skip
     return Text("\n".join(lines), style="dim")

@@ -190,3 +190,29 @@ def test_suffix_truncation_raises_fanout_for_string_keys(tmp_path):
     assert short["optimized"]["expected_page_reads"] <= plain["optimized"]["expected_page_reads"] + 1e-12
     bad = CliRunner().invoke(app, ["plan", str(db), "--table", "t", "--key", "k", "--truncate-separators"])
     assert bad.exit_code == 5
+
+
+def test_both_structures_side_by_side(tmp_path):
+    import json
+
+    from typer.testing import CliRunner
+
+    from advisor.cli import app
+
+    runner = CliRunner()
+    res = runner.invoke(app, ["demo", "--dir", str(tmp_path), "--keys", "4000", "--lookups", "30000", "--json",
+                              "--page-size", "4096"])  # fmt: skip
+    assert res.exit_code == 0
+    db = next(tmp_path.glob("*.duckdb"))
+    args = ["plan", str(db), "--table", "packets", "--key", "packet_no", "--log", "desk_lookups", "--page-size", "4096",
+            "--model", "both", "--order-column", "lookup_seq"]  # fmt: skip
+    run = json.loads(runner.invoke(app, args + ["--json"]).stdout)
+    assert [p["model"] for p in run["plans"]] == ["btree", "bplus"]
+    assert "balanced" in run["plans"][1] and "balanced" not in run["plans"][0]
+    rows = run["page_size_choice"]["rows"]
+    assert {r["model"] for r in rows} == {"btree", "bplus"}
+    assert len({r["pool_pages"] for r in rows}) == 1  # one pool in bytes for both structures
+    assert run["page_size_choice"]["best_model"] in ("btree", "bplus")
+    assert {r["model"] for r in run["holdout"]["rows"]} == {"btree", "bplus"}
+    text = runner.invoke(app, args, env={"COLUMNS": "120"}).stdout
+    assert "4,096 B+" in text and "Balanced B+-tree" in text
