@@ -15,7 +15,7 @@ from .geometry import (
     Geometry,
     geometry_for,
 )
-from .balanced import balanced_bplus_layout
+from .balanced import balanced_bplus_layout, balanced_miss_bound
 from .bufferpool import pinned_misses, pool_figures
 from .histogram import Histogram
 from .holdout import holdout_rows
@@ -158,9 +158,12 @@ def analyse(wl: Workload, req: Request, on_plan: Callable[[int, str], None] | No
     if s.model == "bplus":
         for entry, p in zip(run["plans"], plans):
             layout, sizes, how = balanced_bplus_layout(wl.hist, p.uniform, req.pool_pages)
+            height = int(p.uniform.depths().max()) if p.uniform.pages else 0
             rows = zip(sizes, pinned_misses(p.uniform, wl.hist, sizes), pinned_misses(layout, wl.hist, sizes))
             entry["balanced"] = cost_dict(evaluate(layout, wl.hist)) | {"method": how, "buffer_pool": [
-                {"pool_pages": b, "uniform_pinned": u, "balanced_pinned": m} for b, u, m in rows]}  # fmt: skip
+                {"pool_pages": b, "uniform_pinned": u, "balanced_pinned": m,
+                 "lower_bound": balanced_miss_bound(wl.hist, p.keys_per_page, p.fanout, height, b)}
+                for b, u, m in rows]}  # fmt: skip
     if req.scan_to:
         first, last, weight, points = load_scans(wl, req.scan_to)
         for entry, p in zip(run["plans"], plans):

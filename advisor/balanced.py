@@ -5,7 +5,9 @@ Page reads per lookup are the height for every such layout, so the only gain is 
 with a cache. Candidates: the even split itself and hot-leaf packings for several numbers of
 hot leaves; the pick minimises pinned-cache misses summed over the pool sizes, among candidates
 never worse than the even split at any of those sizes (so the curve never rises above it).
-Near-optimal only: no exact solver and no lower bound yet.
+Objective: pinned-cache misses summed over the pool sizes (the area under the curve), among
+layouts never worse than the even split at any size. Exact (every balanced tree enumerated) for
+up to 12 keys and a few thousand trees; near-optimal beyond, with ``balanced_miss_bound``.
 """
 
 from __future__ import annotations
@@ -14,7 +16,7 @@ import numpy as np
 
 from .bufferpool import pinned_misses, pool_sizes
 from .histogram import Histogram
-from .layout import Layout, evaluate
+from .layout import Layout, LayoutBuilder, evaluate
 from .optimize.bplus import bplus_weights, hot_leaf_starts, leaves_to_tree
 
 
@@ -25,8 +27,18 @@ def balanced_bplus_layout(hist: Histogram, uniform: Layout, pages: list[int] | N
     base = pinned_misses(uniform, hist, sizes)
     best, best_score, how = uniform, sum(base), "even split (no packing helped)"
     if n <= L or hist.total <= 0:
-        return best, sizes, how
+        return best, sizes, "exact: one leaf, or nothing looked up" if n <= L or hist.total <= 0 else how
     height = int(uniform.depths().max())
+    if n <= 12:
+        every = all_balanced(n, L, F, height)
+        if every is not None:  # exact: the best of every balanced tree under the same rule
+            for cand in every:
+                misses = pinned_misses(cand, hist, sizes)
+                if all(m <= b + 1e-12 for m, b in zip(misses, base)) and sum(misses) < best_score - 1e-12:
+                    best, best_score, how = cand, sum(misses), "exact: best of every balanced tree"
+            if how.startswith("even"):
+                how = "exact: the even split is already best"
+            return best, sizes, how
     max_leaves = F ** (height - 1)
     w = bplus_weights(hist)
     cum = np.concatenate([[0.0], np.cumsum(w)])
@@ -46,3 +58,120 @@ def balanced_bplus_layout(hist: Histogram, uniform: Layout, pages: list[int] | N
         if all(m <= b + 1e-12 for m, b in zip(misses, base)) and sum(misses) < best_score:
             best, best_score, how = cand, sum(misses), name
     return best, sizes, how
+
+
+ENUMERATION_LIMIT = 20_000  # balanced trees tried exhaustively below this many
+
+
+def _compositions(n: int, L: int):
+    """Every split of n keys into consecutive runs of 1..L keys (as run lengths)."""
+    if n == 0:
+        yield ()
+        return
+    for first in range(1, min(L, n) + 1):
+        for rest in _compositions(n - first, L):
+            yield (first,) + rest
+
+
+def _groupings(count: int, F: int, height: int):
+    """Every tree of exactly ``height`` levels over ``count`` leaves (2..F children per internal
+    page), as nested tuples of leaf-count groups; a leaf is the integer 1."""
+    if height == 1:
+        if count == 1:
+            yield 1
+        return
+    for parts in _splits(count, F):
+        yield from _product([_groupings_list(k, F, height - 1) for k in parts])
+
+
+def _groupings_list(count: int, F: int, height: int) -> list:
+    return list(_groupings(count, F, height))
+
+
+def _splits(count: int, F: int):
+    """Ordered splits of count leaves into 2..F non-empty groups."""
+    def rec(left: int, slots: int):
+        if slots == 1:
+            yield (left,)
+            return
+        for k in range(1, left - slots + 2):
+            for rest in rec(left - k, slots - 1):
+                yield (k,) + rest
+
+    for m in range(2, min(F, count) + 1):
+        yield from rec(count, m)
+
+
+def _product(options: list[list]):
+    if not options:
+        yield ()
+        return
+    for head in options[0]:
+        for tail in _product(options[1:]):
+            yield (head,) + tail
+
+
+def _build(n: int, L: int, F: int, runs: tuple, shape) -> Layout:
+    starts = np.concatenate([[0], np.cumsum(runs)[:-1]]).astype(np.int64)
+    b = LayoutBuilder(n, L, "bplus", F)
+    leaf_iter = iter(range(len(runs)))
+
+    def add(node, parent: int, slot: int) -> int:
+        if isinstance(node, int):
+            t = next(leaf_iter)
+            b.add(np.arange(starts[t], starts[t] + runs[t]), parent, slot, leaf=True)
+            return int(starts[t])
+        page = b.add(np.zeros(0, dtype=np.int64), parent, slot, leaf=False)
+        firsts = [add(child, page, k) for k, child in enumerate(node)]
+        b.set_keys(page, np.asarray(firsts[1:], dtype=np.int64))
+        return firsts[0]
+
+    add(shape, -1, -1)
+    return b.build()
+
+
+def all_balanced(n: int, L: int, F: int, height: int, limit: int = ENUMERATION_LIMIT):
+    """Every B+-tree over n keys with all leaves at depth ``height``; None if more than ``limit``."""
+    out = []
+    for runs in _compositions(n, L):
+        for shape in _groupings(len(runs), F, height):
+            out.append(_build(n, L, F, runs, shape))
+            if len(out) > limit:
+                return None
+    return out
+
+
+def balanced_miss_bound(hist: Histogram, L: int, F: int, height: int, pool: int) -> float:
+    """Lower bound on pinned misses per lookup of ANY B+-tree with every leaf at depth ``height``.
+
+    Every lookup reads ``height`` pages, so misses = height - (traffic of the B cached pages) /
+    total. A page at depth d covers at most L F^(height-d) keys, so x cached pages at depth d
+    carry at most min(total, weight of the x L F^(height-d) heaviest keys), at most F^(d-1)
+    pages exist there; those caps are concave in x, so giving the B pages one by one to the
+    depth with the largest gain maximises their sum, which bounds any real cache's traffic.
+    """
+    total = hist.total
+    if total <= 0 or hist.n == 0:
+        return 0.0
+    ws = np.sort(bplus_weights(hist))[::-1]
+    cum = np.concatenate([[0.0], np.cumsum(ws)])
+
+    def carried(d: int, x: int) -> float:
+        keys = min(ws.size, x * L * F ** (height - d))
+        return min(total, float(cum[keys]))
+
+    taken = [0] * (height + 1)
+    cached = 0.0
+    for _ in range(pool):
+        best_d, best_gain = None, 0.0
+        for d in range(1, height + 1):
+            if taken[d] >= F ** (d - 1):
+                continue
+            gain = carried(d, taken[d] + 1) - carried(d, taken[d])
+            if gain > best_gain:
+                best_d, best_gain = d, gain
+        if best_d is None:
+            break
+        taken[best_d] += 1
+        cached += best_gain
+    return max(0.0, height - cached / total)

@@ -87,6 +87,10 @@ class LayoutBuilder:
     def __len__(self) -> int:
         return len(self._parent)
 
+    def set_keys(self, page: int, keys: np.ndarray) -> None:
+        """Replace a page's keys (an internal B+-tree page learns its separators after its children)."""
+        self._keys[page] = np.asarray(keys, dtype=np.int64)
+
     def build(self) -> Layout:
         sizes = np.fromiter((k.size for k in self._keys), dtype=np.int64, count=len(self._keys))
         start = np.zeros(sizes.size + 1, dtype=np.int64)

@@ -216,3 +216,88 @@ def test_both_structures_side_by_side(tmp_path):
     assert {r["model"] for r in run["holdout"]["rows"]} == {"btree", "bplus"}
     text = runner.invoke(app, args, env={"COLUMNS": "120"}).stdout
     assert "4,096 B+" in text and "Balanced B+-tree" in text
+
+
+def _every_balanced_tree(n, L, F, height):
+    """Independent brute force: (leaf runs, nested children) for every B+-tree with all leaves at
+    depth ``height``, built straight into page lists and costed by its own traffic count."""
+    def runs(k):
+        if k == 0:
+            yield []
+        for first in range(1, min(L, k) + 1):
+            for rest in runs(k - first):
+                yield [first] + rest
+
+    def trees(leaves, h):  # leaves: list of (lo, hi) key ranges; yields page lists [(parent_path, lo, hi)]
+        if h == 1:
+            if len(leaves) == 1:
+                yield [leaves[0]]
+            return
+        m = len(leaves)
+        for parts in range(2, min(F, m) + 1):
+            for cuts in __import__("itertools").combinations(range(1, m), parts - 1):
+                edges = (0,) + cuts + (m,)
+                groups = [leaves[a:b] for a, b in zip(edges[:-1], edges[1:])]
+
+                def combine(gs):
+                    if not gs:
+                        yield []
+                        return
+                    for sub in trees(gs[0], h - 1):
+                        for rest in combine(gs[1:]):
+                            yield [sub] + rest
+
+                for kids in combine(groups):
+                    yield [(leaves[0][0], leaves[-1][1], kids)]
+
+    for r in runs(n):
+        starts = np.concatenate([[0], np.cumsum(r)]).tolist()
+        leaves = list(zip(starts[:-1], starts[1:]))
+        yield from trees(leaves, height)
+
+
+def _traffic(tree, w):
+    """Per-page traffic (weight of the keys below) of a tree from _every_balanced_tree."""
+    out = []
+
+    def walk(node):
+        if isinstance(node, tuple) and len(node) == 2:
+            out.append(float(sum(w[node[0]:node[1]])))
+            return
+        lo, hi, kids = node
+        out.append(float(sum(w[lo:hi])))
+        for k in kids:
+            walk(k[0] if isinstance(k, list) else k)
+
+    walk(tree[0])
+    return out
+
+
+@settings(max_examples=40, deadline=None)
+@given(data=st.data(), L=st.integers(1, 3), F=st.integers(3, 4))
+def test_balanced_shape_exact_equals_brute_force(data, L, F):
+    # F >= 3 so that the even split itself has every leaf at one depth (with F = 2 it may not)
+    from advisor.balanced import balanced_bplus_layout, balanced_miss_bound
+    from advisor.bufferpool import pinned_misses
+
+    n = data.draw(st.integers(2, 7))
+    p = np.array(data.draw(st.lists(st.integers(0, 30), min_size=n, max_size=n)), float)
+    if p.sum() == 0:
+        p[0] = 1
+    hist = Histogram(p, np.zeros(n + 1))
+    uni = uniform_bplus(n, L, F)
+    height = int(uni.depths().max())
+    layout, sizes, how = balanced_bplus_layout(hist, uni, [1, 2, 3])
+    assert how.startswith("exact")
+    w = bplus_weights(hist)
+    base = pinned_misses(uni, hist, sizes)
+
+    def misses(tree):
+        t = sorted(_traffic(tree, w), reverse=True)
+        return [(height * w.sum() - sum(t[:b])) / w.sum() for b in sizes]
+
+    every = [misses(t) for t in _every_balanced_tree(n, L, F, height)]
+    allowed = [m for m in every if all(a <= b + 1e-12 for a, b in zip(m, base))]
+    assert sum(pinned_misses(layout, hist, sizes)) == pytest.approx(min(sum(m) for m in allowed), abs=1e-12)
+    for i, b in enumerate(sizes):  # the bound holds for every balanced tree
+        assert balanced_miss_bound(hist, L, F, height, b) <= min(m[i] for m in every) + 1e-12
