@@ -6,7 +6,7 @@ a range with more than c keys gets a full root page whose c keys cut the range's
 (hits and misses, in key order) as near as possible into c + 1 equal parts, so a key with
 share x of the traffic ends near depth log_{c+1}(1/x). A blend parameter ``spread`` adds
 ``spread`` times the mean weight to every key and gap first: 0 follows the traffic only, large
-values approach the even split, which matters where many keys are never looked up. 
+values approach the even split, which matters where many keys are never looked up.
 ``hot_first_layout`` lifts the heaviest keys of each range into its page, subject to every
 sub-range still fitting under the page in the even split's height, so it never gets taller than
 the baseline. ``polish`` then replaces small subtrees of any layout by their exact optimum,
@@ -110,7 +110,8 @@ def _fill(cum, mid, lo, hi, pick, c):
 
 
 def heaviest_first_layout(hist: Histogram, c: int) -> Layout:
-    """Simple greedy: each page takes its range's c heaviest keys (a comparison point only)."""
+    """Simple greedy: each page takes its range's c heaviest keys. Good on scattered skew, bad
+    when hot keys cluster (whole runs end up in one child); one candidate among several."""
 
     def heaviest(lo: int, hi: int, _state) -> tuple[np.ndarray, None]:
         return np.sort(np.argpartition(-hist.p[lo:hi], c - 1)[:c]) + lo, None
