@@ -124,7 +124,8 @@ def analyse(wl: Workload, req: Request, on_plan: Callable[[int, str], None] | No
     of plans (each says its model), so a scan-heavy or cache-bound workload shows which suits it.
     """
     if req.settings.model == "both":
-        first = analyse(wl, replace(req, settings=replace(req.settings, model="btree")), on_plan)
+        btree = replace(req, settings=replace(req.settings, model="btree"), truncate_separators=False)
+        first = analyse(wl, btree, on_plan)
         pool = req.pool_bytes or default_pool_bytes(first.plans)  # one pool in bytes for both structures
         second = analyse(wl, replace(req, settings=replace(req.settings, model="bplus"), pool_bytes=pool), on_plan)
         parts = [first, second]
@@ -136,16 +137,16 @@ def analyse(wl: Workload, req: Request, on_plan: Callable[[int, str], None] | No
             run["page_size_choice"] = run["page_size_choice"] | {"rows": both} | best_choice(both)
         return Analysis(parts[0].plans + parts[1].plans, run)
     s = req.settings
+    if (req.order_column or req.scan_to) and not wl.log:
+        raise SettingInvalid("--order-column and --scan-to need --log")
+    if req.truncate_separators and s.model != "bplus":
+        raise SettingInvalid("--truncate-separators applies to --model bplus")
     targets = capacities(s, wl.key_bytes)
-    if req.truncate_separators and s.model != "both":
-        if s.model != "bplus":
-            raise SettingInvalid("--truncate-separators applies to --model bplus")
+    if req.truncate_separators:
         targets = [(c, replace(g, separator_bytes=truncated_separator_bytes(wl, c)) if g else g) for c, g in targets]
     unique = list({(c, g.page_size if g else None): (c, g) for c, g in targets}.values())
     options = PlanOptions(smoothing=req.smoothing, model=s.model, fanout=req.fanout or 0)
     plans = advise(wl.hist, unique, options, on_plan)
-    if (req.order_column or req.scan_to) and not wl.log:
-        raise SettingInvalid("--order-column and --scan-to need --log")
     replay = load_replay(wl, req.order_column, req.replay_limit) if req.order_column else None
     pools = [pool_figures(p.uniform, p.recommended, wl.hist, replay, req.pool_pages) for p in plans]
     inputs = {
