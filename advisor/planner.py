@@ -17,7 +17,8 @@ from .layout import Cost, Layout, check_layout, evaluate
 from .errors import SettingInvalid
 from .optimize import balanced_layout, exact_work, heaviest_first_layout, hot_first_layout, lower_bounds, polish, solve_exact, uniform_layout
 from .optimize.bplus import (
-    balanced_bplus, bplus_chain, bplus_level_bound, bplus_work, full_leaves_balanced, full_leaves_exact, leaf_count,
+    balanced_bplus, bplus_chain, bplus_level_bound, bplus_work, full_leaves_balanced, full_leaves_exact, hot_first_bplus,
+    leaf_count,
     solve_bplus_exact, uniform_bplus,
 )  # fmt: skip
 
@@ -31,6 +32,8 @@ def near_candidates(hist: Histogram, c: int, model: str = "btree", fanout: int =
         leaves = leaf_count(hist.n, c)
         if bplus_work(leaves, fanout) <= (opts.exact_max_ops if opts else EXACT_MAX_OPS):
             yield "full leaves, exact internal pages", lambda: full_leaves_exact(hist, c, fanout)
+        yield "hot keys in leaves of their own", lambda: hot_first_bplus(hist, c, fanout, 0)
+        yield "hot keys in leaves of their own, one level more", lambda: hot_first_bplus(hist, c, fanout, 1)
         yield "full leaves, weight-balanced internal pages", lambda: full_leaves_balanced(hist, c, fanout)
         yield "weight-balanced leaves", lambda: balanced_bplus(hist, c, fanout, 0.1)
         yield "weight-balanced leaves, spread 1", lambda: balanced_bplus(hist, c, fanout, 1.0)

@@ -12,7 +12,7 @@ from hypothesis import strategies as st
 from advisor.histogram import Histogram
 from advisor.layout import check_layout, evaluate
 from advisor.optimize.bplus import (
-    balanced_bplus, bplus_height, bplus_level_bound, bplus_weights, solve_bplus_exact, uniform_bplus,
+    balanced_bplus, bplus_height, bplus_level_bound, bplus_weights, hot_first_bplus, solve_bplus_exact, uniform_bplus,
 )  # fmt: skip
 
 from .conftest import brute_force_bplus, random_hist
@@ -79,12 +79,14 @@ def test_evaluator_agrees_with_replay_and_properties(seed):
         exact = solve_bplus_exact(hist, L, F)
         uni = uniform_bplus(hist.n, L, F)
         near = balanced_bplus(hist, L, F)
-        for layout in (exact.layout, uni, near):
+        hot = [hot_first_bplus(hist, L, F, extra) for extra in (0, 1)]
+        for layout in (exact.layout, uni, near, *hot):
             check_layout(layout)
             assert evaluate(layout, hist).expected_page_reads == pytest.approx(_replay(layout, hist), rel=1e-12)
         e = evaluate(exact.layout, hist).expected_page_reads
         assert bplus_level_bound(hist, L, F) <= e + 1e-12
         assert e <= evaluate(near, hist).expected_page_reads + 1e-12
+        assert all(e <= evaluate(x, hist).expected_page_reads + 1e-12 for x in hot)
         assert e <= evaluate(uni, hist).expected_page_reads + 1e-12
 
 

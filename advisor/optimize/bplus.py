@@ -346,3 +346,63 @@ def hot_leaf_starts(w: np.ndarray, L: int, k: int, max_leaves: int) -> np.ndarra
             pos = i + L
     starts = np.array(sorted(set(starts)), dtype=np.int64)
     return starts if starts.size <= max_leaves else None
+
+
+def hot_first_bplus(hist: Histogram, L: int, F: int, extra_levels: int = 0) -> Layout:
+    """Near-optimal variable-depth B+-tree that lifts single hot keys into shallow leaves.
+
+    An internal page over a range gives its hottest keys leaves of their own (a leaf may be one
+    key) and hangs the runs between them as further subtrees, as many hot keys as the fanout
+    allows once every run fits below in the remaining height (the even split's height plus
+    ``extra_levels``). Runs too long are cut evenly. Scattered hot keys then sit at depth 2, 3, ...
+    instead of sharing deep leaves with thousands of cold keys. O(n log n).
+    """
+    n = hist.n
+    b = LayoutBuilder(n, L, "bplus", F)
+    if n == 0:
+        return b.build()
+    w = bplus_weights(hist)
+    order = np.argsort(-w, kind="stable")
+    rank = np.empty(n, dtype=np.int64)
+    rank[order] = np.arange(n)  # 0 = hottest
+    top = bplus_height(n, L, F) + extra_levels
+    todo = deque([(0, n, -1, -1, top)])
+    while todo:
+        lo, hi, parent, slot, h = todo.popleft()
+        if hi - lo <= L or h <= 1:
+            b.add(np.arange(lo, hi), parent, slot, leaf=True)
+            continue
+        cap = L * F ** (h - 2)  # keys a child subtree of h-1 levels can hold
+        kids = _hot_children(rank[lo:hi], lo, hi, F, cap)
+        page = b.add(np.array([a for a, _ in kids[1:]], dtype=np.int64), parent, slot, leaf=False)
+        for k, (a, z) in enumerate(kids):
+            todo.append((a, z, page, k, h - 1))
+    return b.build()
+
+
+def _hot_children(rank: np.ndarray, lo: int, hi: int, F: int, cap: int) -> list[tuple[int, int]]:
+    """Child ranges of a page over lo..hi-1: the hottest keys alone, the runs between them cut
+    into pieces of at most ``cap`` keys, at most F children in all (fewer hot keys if needed)."""
+    size = hi - lo
+    hottest = np.argsort(rank, kind="stable")
+    t = min((F - 1) // 2, size)
+    while True:
+        hot = np.sort(hottest[:t]) + lo
+        edges = [lo]
+        for x in hot.tolist():
+            edges += [x, x + 1]
+        edges.append(hi)
+        kids = []
+        for a, z in zip(edges[:-1], edges[1:]):
+            if z <= a:
+                continue
+            pieces = -(-(z - a) // cap)
+            bounds = a + (np.arange(pieces + 1) * (z - a)) // pieces
+            kids += list(zip(bounds[:-1].tolist(), bounds[1:].tolist()))
+        if len(kids) <= F or t == 0:
+            break
+        t = max(0, min(t - 1, t - (len(kids) - F + 1) // 2))
+    if len(kids) > F:  # no hot keys fit: the even cut of the range into F pieces
+        bounds = lo + (np.arange(F + 1) * size) // F
+        kids = [(a, z) for a, z in zip(bounds[:-1].tolist(), bounds[1:].tolist()) if z > a]
+    return kids
