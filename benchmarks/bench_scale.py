@@ -29,11 +29,12 @@ print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss, file=sys.stderr)
 """
 
 
-def run_case(db: Path) -> tuple[dict, float, float]:
+def run_case(db: Path, model: str = "btree") -> tuple[dict, float, float]:
     """Run the CLI in a fresh process; returns (JSON, wall seconds, that process's peak MiB)."""
     t0 = time.perf_counter()
     out = subprocess.run(
-        [sys.executable, "-c", CHILD, "plan", str(db), "--table", "t", "--key", "k", "--log", "lg", "--json"],
+        [sys.executable, "-c", CHILD, "plan", str(db), "--table", "t", "--key", "k", "--log", "lg", "--json",
+         "--model", model],
         check=True, capture_output=True, text=True,
     )  # fmt: skip
     wall = time.perf_counter() - t0
@@ -47,15 +48,16 @@ def main() -> None:
     ap.add_argument("--lookups", type=int, default=10_000_000)
     ap.add_argument("--dir", type=Path, default=Path.home() / ".cache" / "advisor-bench")
     ap.add_argument("--workloads", nargs="*", default=list(WORKLOADS))
+    ap.add_argument("--model", default="btree", choices=["btree", "bplus"])
     args = ap.parse_args()
-    print(f"n = {args.keys:,} keys, {args.lookups:,} logged lookups, page sizes 4096/8192/16384")
+    print(f"n = {args.keys:,} keys, {args.lookups:,} logged lookups, page sizes 4096/8192/16384, model {args.model}")
     head = f"{'workload':<20} {'c':>5} {'wall s':>7} {'hist s':>7} {'plan s':>7} {'peak MiB':>9} " \
            f"{'even':>7} {'advised':>8} {'bound':>7} {'gap %':>6} {'saved %':>8} {'proven':>6}  method"  # fmt: skip
     print(head)
     print("-" * len(head))
     for kind in args.workloads:
         db = build(args.dir, kind, args.keys, args.lookups)
-        run, wall, peak = run_case(db)
+        run, wall, peak = run_case(db, args.model)
         for p in run["plans"]:
             print(
                 f"{kind:<20} {p['keys_per_page']:>5} {wall:>7.1f} {run['timings']['histogram_seconds']:>7.1f} "
