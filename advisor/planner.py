@@ -17,7 +17,7 @@ from .layout import Cost, Layout, check_layout, evaluate
 from .errors import SettingInvalid
 from .optimize import balanced_layout, exact_work, heaviest_first_layout, hot_first_layout, lower_bounds, polish, solve_exact, uniform_layout
 from .optimize.bplus import (
-    balanced_bplus, bplus_chain, bplus_level_bound, bplus_work, full_leaves_balanced, full_leaves_exact, hot_first_bplus,
+    balanced_bplus, bplus_chain, bplus_level_bound, bplus_window_bound, bplus_work, full_leaves_balanced, full_leaves_exact, hot_first_bplus,
     leaf_count,
     solve_bplus_exact, uniform_bplus,
 )  # fmt: skip
@@ -162,7 +162,10 @@ def plan_capacity(
         check_layout(best)
         check_layout(uni)
     step("bounds")
-    bounds = {"level_capacity": bplus_level_bound(hist, c, F)} if bplus else lower_bounds(hist, c)
+    if bplus:
+        bounds = {"level_capacity": bplus_level_bound(hist, c, F), "leaf_runs": bplus_window_bound(hist, c, F)}
+    else:
+        bounds = lower_bounds(hist, c)
     lb = max(bounds.values())
     if not proven and best_cost.expected_page_reads <= lb * (1 + PROOF_TOLERANCE):
         proven, method = True, method + ", meets the lower bound"

@@ -12,7 +12,7 @@ from hypothesis import strategies as st
 from advisor.histogram import Histogram
 from advisor.layout import check_layout, evaluate
 from advisor.optimize.bplus import (
-    balanced_bplus, bplus_height, bplus_level_bound, bplus_weights, hot_first_bplus, solve_bplus_exact, uniform_bplus,
+    balanced_bplus, bplus_height, bplus_level_bound, bplus_weights, bplus_window_bound, hot_first_bplus, solve_bplus_exact, uniform_bplus,
 )  # fmt: skip
 
 from .conftest import brute_force_bplus, random_hist
@@ -31,6 +31,9 @@ def test_exact_equals_brute_force(data, L, F):
     check_layout(res.layout)
     want = brute_force_bplus(bplus_weights(hist), L, F) / hist.total
     assert res.objective == pytest.approx(want, rel=1e-12)
+    # both lower bounds stay below the brute-force optimum
+    assert bplus_level_bound(hist, L, F) <= want + 1e-12
+    assert bplus_window_bound(hist, L, F) <= want + 1e-12
     assert evaluate(res.layout, hist).expected_page_reads == pytest.approx(res.objective, rel=1e-12)
 
 
@@ -303,3 +306,24 @@ def test_balanced_shape_exact_equals_brute_force(data, L, F):
     assert sum(pinned_misses(layout, hist, sizes)) == pytest.approx(min(sum(m) for m in allowed), abs=1e-12)
     for i, b in enumerate(sizes):  # the bound holds for every balanced tree
         assert balanced_miss_bound(hist, L, F, height, b) <= min(m[i] for m in every) + 1e-12
+
+
+def test_disjoint_runs_dp_matches_brute_force():
+    from functools import lru_cache
+
+    from advisor.optimize.bplus import best_disjoint_windows
+
+    rng = np.random.default_rng(0)
+    for _ in range(150):
+        n, L = int(rng.integers(1, 12)), int(rng.integers(1, 5))
+        w = tuple(rng.integers(0, 10, n).astype(float))
+
+        @lru_cache(maxsize=None)
+        def best(i, k):
+            if i >= n or k == 0:
+                return 0.0
+            return max([best(i + 1, k)] + [sum(w[i:i + ln]) + best(i + ln, k - 1) for ln in range(1, L + 1) if i + ln <= n])
+
+        M = best_disjoint_windows(np.array(w), L, 4)
+        for x in range(M.size):
+            assert M[x] == pytest.approx(best(0, x))
