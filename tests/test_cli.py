@@ -152,3 +152,14 @@ def test_buffer_pool_and_lru_replay(small_db):
         np.testing.assert_allclose(np.bincount(replay.outcomes[replay.outcomes < n], minlength=n), wl.hist.p)
         np.testing.assert_allclose(np.bincount(replay.outcomes[replay.outcomes >= n] - n, minlength=n + 1), wl.hist.q)
     assert "Buffer pool" in _plan(small_db, "--keys-per-page", "20").stdout
+
+
+def test_public_api_runs_the_main_job(small_db):
+    import advisor
+
+    with advisor.load_workload(small_db, "items", "item_no", "probes") as wl:
+        result = advisor.analyse(wl, advisor.Request(advisor.PageSettings(page_sizes=[8192])))
+    (plan,) = result.plans
+    advisor.check_layout(plan.recommended)
+    assert result.run["plans"][0]["optimized"]["expected_page_reads"] == plan.recommended_cost.expected_page_reads
+    assert set(advisor.__all__) <= set(dir(advisor))
