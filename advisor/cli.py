@@ -177,6 +177,7 @@ def plan_cmd(
     fanout: Annotated[Optional[int], typer.Option("--fanout", help="bplus: children per internal page, with --keys-per-page (which then sets the leaf capacity).", min=2)] = None,
     fill_factor: Annotated[float, typer.Option("--fill-factor", help="bplus: share of each leaf page filled (0..1].")] = 1.0,
     truncate_separators: Annotated[bool, typer.Option("--truncate-separators", help="bplus, string keys: shorten separators to the shortest prefix that still separates two leaves.")] = False,
+    exact_seconds: Annotated[float, typer.Option("--exact-seconds", help="Run the exact optimiser when it should finish within this many seconds per page size.", min=0.0)] = 5.0,
     memory_limit: Annotated[Optional[str], typer.Option("--memory-limit", help="Cap DuckDB's memory while reading the log, e.g. 2GB (it spills to disk beyond).")] = None,
 ) -> None:
     """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
@@ -188,7 +189,7 @@ def plan_cmd(
         settings = PageSettings(list(page_size or []), list(keys_per_page or []), page_header, record_pointer,
                                 child_pointer, key_bytes, model, fill_factor)  # fmt: skip
         request = Request(settings, smoothing, fanout, truncate_separators, list(pool_pages or []) or None, order_column,
-                          replay_limit, holdout, scan_to, parse_storage(storage), pool_bytes)  # fmt: skip
+                          replay_limit, holdout, scan_to, parse_storage(storage), pool_bytes, exact_seconds)  # fmt: skip
         _run(database, table, key, log, request, as_json, export, export_for, force, log_column, count_column,
              distinct_keys, memory_limit, svg, html)  # fmt: skip
 

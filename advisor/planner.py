@@ -22,7 +22,8 @@ from .optimize.bplus import (
     solve_bplus_exact, uniform_bplus,
 )  # fmt: skip
 
-EXACT_MAX_OPS = 1.5e9  # about 5 s of numpy on one core of this machine kind
+OPS_PER_SECOND = 3e8  # element operations of the exact DP per second, measured on this machine kind
+EXACT_MAX_OPS = 5 * OPS_PER_SECOND  # run the exact DP when it should take about 5 s or less
 EXACT_MAX_BYTES = 2.0e9
 
 

@@ -163,3 +163,11 @@ def test_public_api_runs_the_main_job(small_db):
     advisor.check_layout(plan.recommended)
     assert result.run["plans"][0]["optimized"]["expected_page_reads"] == plan.recommended_cost.expected_page_reads
     assert set(advisor.__all__) <= set(dir(advisor))
+
+
+def test_exact_seconds_chooses_the_solver(small_db):
+    fast = json.loads(_plan(small_db, "--json", "--keys-per-page", "30", "--exact-seconds", "0").stdout)["plans"][0]
+    exact = json.loads(_plan(small_db, "--json", "--keys-per-page", "30", "--exact-seconds", "120").stdout)["plans"][0]
+    assert exact["proven_optimal"] and exact["optimized"]["method"] == "exact DP"
+    assert "exact DP" not in fast["optimized"]["method"]
+    assert exact["optimized"]["expected_page_reads"] <= fast["optimized"]["expected_page_reads"] + 1e-12
