@@ -165,9 +165,15 @@ def test_public_api_runs_the_main_job(small_db):
     assert set(advisor.__all__) <= set(dir(advisor))
 
 
-def test_exact_seconds_chooses_the_solver(small_db):
-    fast = json.loads(_plan(small_db, "--json", "--keys-per-page", "30", "--exact-seconds", "0").stdout)["plans"][0]
-    exact = json.loads(_plan(small_db, "--json", "--keys-per-page", "30", "--exact-seconds", "120").stdout)["plans"][0]
+def test_exact_seconds_chooses_the_solver(tmp_path):
+    db = tmp_path / "small.duckdb"
+    con = duckdb.connect(str(db))
+    con.execute("CREATE TABLE items AS SELECT range * 3 AS item_no FROM range(400)").fetchall()
+    con.execute("CREATE TABLE probes AS SELECT ((hash(range) % 37) * (hash(range) % 11) * 3)::BIGINT AS item_no "
+                "FROM range(5000)").fetchall()  # fmt: skip
+    con.close()
+    fast = json.loads(_plan(db, "--json", "--keys-per-page", "6", "--exact-seconds", "0").stdout)["plans"][0]
+    exact = json.loads(_plan(db, "--json", "--keys-per-page", "6", "--exact-seconds", "60").stdout)["plans"][0]
     assert exact["proven_optimal"] and exact["optimized"]["method"] == "exact DP"
     assert "exact DP" not in fast["optimized"]["method"]
     assert exact["optimized"]["expected_page_reads"] <= fast["optimized"]["expected_page_reads"] + 1e-12
