@@ -74,9 +74,10 @@ def advise(
 
 
 def export_paths(path: str | Path, plans: list[Plan], only: int | None = None) -> list[tuple[Plan, Path]]:
-    """Where each plan's export goes: ``path`` itself for one plan, else one suffixed file each.
+    """Where each plan's export goes: ``path`` itself for one plan, else one suffixed file each
+    (page size or capacity, plus "-bplus" for B+-tree plans when both structures are planned).
 
-    ``only`` picks one plan by page size or keys per page.
+    ``only`` picks the plans of one page size or keys per page.
     """
     path = Path(path)
     if only is not None:
@@ -84,13 +85,18 @@ def export_paths(path: str | Path, plans: list[Plan], only: int | None = None) -
         if not chosen:
             sizes = ", ".join(str(p.page_size or f"c={p.keys_per_page}") for p in plans)
             raise SettingInvalid(f"no plan for page size or keys per page {only} (planned: {sizes})")
-        plans = chosen[:1]
+        plans = chosen
     if len(plans) == 1:
         return [(plans[0], path)]
+    mixed = len({p.model for p in plans}) > 1
     out = []
     for p in plans:
         label = f"{p.page_size}B" if p.page_size else f"c{p.keys_per_page}"
+        if mixed and p.model == "bplus":
+            label += "-bplus"
         out.append((p, path.with_name(f"{path.stem}-{label}{path.suffix}")))
+    if len({target for _, target in out}) != len(out):
+        raise SettingInvalid("two plans would export to the same file; pick one with --export-for")
     return out
 
 

@@ -177,3 +177,9 @@ def test_exact_seconds_chooses_the_solver(tmp_path):
     assert exact["proven_optimal"] and exact["optimized"]["method"] == "exact DP"
     assert "exact DP" not in fast["optimized"]["method"]
     assert exact["optimized"]["expected_page_reads"] <= fast["optimized"]["expected_page_reads"] + 1e-12
+
+
+def test_export_with_both_structures_writes_one_file_each(small_db, tmp_path):
+    res = _plan(small_db, "--model", "both", "--page-size", "4096", "--export", str(tmp_path / "x.csv"))
+    assert res.exit_code == 0, res.stderr
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["x-4096B-bplus.csv", "x-4096B.csv"]
