@@ -41,6 +41,7 @@ def near_candidates(hist: Histogram, c: int, model: str = "btree", fanout: int =
         return
     yield "weight-balanced", lambda: balanced_layout(hist, c, 0.0)
     yield "weight-balanced, spread 0.1", lambda: balanced_layout(hist, c, 0.1)
+    yield "weight-balanced, heaviest key near each cut", lambda: balanced_layout(hist, c, 0.0, pick_heaviest=True)
     yield "hot-first", lambda: hot_first_layout(hist, c, 0)
     yield "hot-first, one level more at the root", lambda: hot_first_layout(hist, c, 1)
     yield "hot-first, one level more everywhere", lambda: hot_first_layout(hist, c, 1, everywhere=True)

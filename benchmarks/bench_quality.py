@@ -42,7 +42,7 @@ def main() -> None:
     names = [name for name, _ in near_candidates(Histogram(np.ones(1), np.ones(2)), 1)]
     abbrev = {"weight-balanced": "bal", "weight-balanced, spread 0.1": "bal.1", "hot-first": "hot",
               "hot-first, one level more at the root": "hot+1r", "hot-first, one level more everywhere": "hot+1e",
-              "heaviest keys first": "greedy"}  # fmt: skip
+              "heaviest keys first": "greedy", "weight-balanced, heaviest key near each cut": "balH"}  # fmt: skip
     short = [abbrev.get(nm, nm[:7]) for nm in names]
     print(f"n = {n:,}; figures are expected page reads / exact optimum - 1, in %")
     print("columns: " + "; ".join(f"{s} = {nm}" for s, nm in zip(short, names)))
