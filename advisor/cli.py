@@ -207,12 +207,17 @@ def demo_cmd(
     force: ForceOpt = False,
     svg: SvgOpt = None,
     html: HtmlOpt = None,
+    model: Annotated[str, typer.Option("--model", help="Index structure: btree, bplus or both.")] = "btree",
 ) -> None:
     """Build the invented demo catalogue (once per seed) and print the full report on it."""
     with _guard():
         db = build_demo(directory, seed=seed, keys=keys, lookups=lookups)
-        request = Request(PageSettings(list(page_size or []), list(keys_per_page or [])), order_column="lookup_seq",
-                          replay_limit=300_000)  # fmt: skip
+        if model not in ("btree", "bplus", "both"):
+            raise SettingInvalid(f"--model must be btree, bplus or both, got {model!r}")
+        if model != "btree" and keys_per_page:
+            raise SettingInvalid("the demo's B+-tree plans take page sizes, not --keys-per-page")
+        settings = PageSettings(list(page_size or []), list(keys_per_page or []), model=model)
+        request = Request(settings, order_column="lookup_seq", replay_limit=300_000)
         _run(db, DEMO_TABLE, DEMO_KEY, DEMO_LOG, request, as_json, export, None, force, svg=svg, html=html)
 
 

@@ -183,3 +183,10 @@ def test_export_with_both_structures_writes_one_file_each(small_db, tmp_path):
     res = _plan(small_db, "--model", "both", "--page-size", "4096", "--export", str(tmp_path / "x.csv"))
     assert res.exit_code == 0, res.stderr
     assert sorted(p.name for p in tmp_path.iterdir()) == ["x-4096B-bplus.csv", "x-4096B.csv"]
+
+
+def test_demo_with_both_structures(tmp_path):
+    res = runner.invoke(app, ["demo", "--dir", str(tmp_path), "--keys", "3000", "--lookups", "20000", "--json",
+                              "--model", "both"])  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    assert {p["model"] for p in json.loads(res.stdout)["plans"]} == {"btree", "bplus"}
