@@ -160,7 +160,7 @@ def analyse(wl: Workload, req: Request, on_plan: Callable[[int, str], None] | No
     inputs = {
         "database": wl.info.get("database"), "table": wl.table, "key": wl.key, "key_type": wl.key_type,
         "key_bytes": round(wl.key_bytes, 2), "log": wl.log or "(none)",
-        **{k: v for k, v in wl.info.items() if k not in ("log_source", "weight_sql", "database")},
+        **{k: v for k, v in wl.info.items() if k != "database"},
         "replayed_lookups": int(replay.outcomes.size) if replay is not None else None,
     }  # fmt: skip
     run = run_dict(wl.hist, plans, inputs, [], pools)

@@ -37,10 +37,6 @@ def decimal_width(type_name: str) -> int:
     return 2 if w <= 4 else 4 if w <= 9 else 8 if w <= 18 else 16
 
 
-def is_variable_width(type_name: str) -> bool:
-    return type_name.upper().split("(")[0] in ("VARCHAR", "BLOB", "BIT")
-
-
 def fixed_key_bytes(type_name: str) -> int | None:
     """Storage width of a fixed-width key type, or None for variable-width types."""
     t = type_name.upper()

@@ -8,7 +8,7 @@ the baseline). Every figure comes from :func:`advisor.layout.evaluate`.
 from __future__ import annotations
 
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Callable
 
 from .geometry import Geometry
@@ -99,7 +99,6 @@ class PlanOptions:
     model: str = "btree"  # or "bplus" (keys only in leaves, variable depth)
     fanout: int = 0  # bplus with a direct capacity: children per internal page
     check: bool = True
-    extra: dict = field(default_factory=dict)
 
 
 def plan_capacity(

@@ -290,24 +290,11 @@ def render_run(run: dict) -> Group:
                           "the even split is shown as is.", style="yellow"))  # fmt: skip
     if run["plans"]:
         parts += [plans_table(run), depth_table(run)]
-        pools = pool_table(run)
-        if pools is not None:
-            parts.append(pools)
-        bal = balanced_table(run)
-        if bal is not None:
-            parts.append(bal)
-        scans = scans_table(run)
-        if scans is not None:
-            parts.append(scans)
-        held = holdout_table(run)
-        if held is not None:
-            parts.append(held)
-        sizes = page_size_panel(run)
-        if sizes is not None:
-            parts.append(sizes)
-        pictures = charts(run)
-        if pictures is not None:
-            parts.append(pictures)
+        # optional sections: each returns None when the run holds none of its figures
+        for section in (pool_table, balanced_table, scans_table, holdout_table, page_size_panel, charts):
+            table = section(run)
+            if table is not None:
+                parts.append(table)
         parts.append(method_notes(run))
     e = export_text(run)
     if e is not None:

@@ -75,6 +75,13 @@ class Workload:
     key: str
     log: str
     info: dict = field(default_factory=dict)
+    log_sql: str = ""  # the log as an SQL relation, resolved once
+    log_columns: dict = field(default_factory=dict)  # its column names and types
+    weight_sql: str = "1"  # lookups per log row: 1, or the checked count column
+
+    def log_column(self, name: str) -> str:
+        """Quoted name of a log column (exact, then case-insensitive match), or InputNotFound."""
+        return quote(_find(self.log_columns, name, f"log {self.log}"))
 
     def close(self) -> None:
         self.con.close()
@@ -219,8 +226,7 @@ def _load(con, table, key, log, log_column, count_column, distinct_keys) -> Work
         ccol = _find(lcols, count_column, f"log {lname}")
         weight = _checked_count(con, lsql, ccol, lcols[ccol], lname)
     v = quote(vcol)
-    info |= {"log_column": vcol, "log_type": lcols[vcol], "count_column": count_column, "log_source": log}
-    info["weight_sql"] = weight
+    info |= {"log_column": vcol, "log_type": lcols[vcol], "count_column": count_column}
     probes = f"SELECT {v} AS v, sum({weight})::DOUBLE AS w FROM {lsql} GROUP BY {v}"
     try:
         p, q = _aggregate(con, probes, n)
@@ -231,7 +237,7 @@ def _load(con, table, key, log, log_column, count_column, distinct_keys) -> Work
             f"{_first_line(str(e))}"
         ) from None
     hist = Histogram(p.astype(np.float64), q.astype(np.float64), float(nulls))
-    return Workload(con, hist, ktype, key_bytes, table, kcol, lname, info)
+    return Workload(con, hist, ktype, key_bytes, table, kcol, lname, info, lsql, lcols, weight)
 
 
 def _aggregate(con, probes_sql: str, n: int) -> tuple[np.ndarray, np.ndarray]:
@@ -253,10 +259,8 @@ def _aggregate(con, probes_sql: str, n: int) -> tuple[np.ndarray, np.ndarray]:
 def load_split(wl: Workload, order_column: str, holdout: float) -> tuple[Histogram, Histogram]:
     """Histograms of the earlier (1 - holdout) and the later ``holdout`` share of the log's rows,
     by ``order_column`` (ties broken by DuckDB's sort)."""
-    lsql, lname = _log_source(wl.con, wl.info["log_source"])
-    lcols = _columns(wl.con, lsql, f"log {lname}")
-    o = quote(_find(lcols, order_column, f"log {lname}"))
-    v, w = quote(wl.info["log_column"]), wl.info["weight_sql"]
+    lsql, o = wl.log_sql, wl.log_column(order_column)
+    v, w = quote(wl.info["log_column"]), wl.weight_sql
     ranked = f"SELECT {v} AS v, {w} AS w, percent_rank() OVER (ORDER BY {o}) AS pr FROM {lsql}"
     out = []
     for cond in (f"pr < {1 - holdout}", f"pr >= {1 - holdout}"):
@@ -293,11 +297,9 @@ def load_replay(wl: Workload, order_column: str, limit: int = 1_000_000):
     """The log's non-NULL lookups in ``order_column`` order (the first ``limit`` rows), as outcome ids."""
     from .bufferpool import Replay
 
-    lsql, lname = _log_source(wl.con, wl.info["log_source"])
-    lcols = _columns(wl.con, lsql, f"log {lname}")
-    ocol = _find(lcols, order_column, f"log {lname}")
-    v, o = quote(wl.info["log_column"]), quote(ocol)
-    w = f"({wl.info['weight_sql']})::BIGINT"
+    lsql, o = wl.log_sql, wl.log_column(order_column)
+    v = quote(wl.info["log_column"])
+    w = f"({wl.weight_sql})::BIGINT"
     n = wl.hist.n
     rows = wl.con.execute(
         f"WITH lg AS (SELECT {v} AS v, {o} AS o, {w} AS w FROM {lsql} WHERE {v} IS NOT NULL ORDER BY {o} LIMIT {int(limit)}) "
@@ -312,10 +314,8 @@ def load_replay(wl: Workload, order_column: str, limit: int = 1_000_000):
 def load_scans(wl: Workload, scan_to: str) -> tuple[np.ndarray, np.ndarray, np.ndarray, Histogram]:
     """Range scans (first rank, last rank, weight) from log rows whose ``scan_to`` is not NULL,
     and the histogram of the point lookups alone (rows where it is NULL)."""
-    lsql, lname = _log_source(wl.con, wl.info["log_source"])
-    lcols = _columns(wl.con, lsql, f"log {lname}")
-    hi = quote(_find(lcols, scan_to, f"log {lname}"))
-    v, w = quote(wl.info["log_column"]), wl.info["weight_sql"]
+    lsql, hi = wl.log_sql, wl.log_column(scan_to)
+    v, w = quote(wl.info["log_column"]), wl.weight_sql
     scans = (f"SELECT {v} AS lo, {hi} AS hi, sum({w})::DOUBLE AS w FROM {lsql} "
              f"WHERE {v} IS NOT NULL AND {hi} IS NOT NULL GROUP BY ALL")  # fmt: skip
     rows = wl.con.execute(

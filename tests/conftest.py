@@ -12,54 +12,39 @@ from advisor.histogram import Histogram
 from advisor.layout import Layout
 
 
-def replay_cost(layout: Layout, hist: Histogram) -> float:
-    """Walk every key and gap down the tree the way a search would, counting pages read.
-
-    A lookup of key k (rank) or of a value in gap g (strictly between ranks g-1 and g, shown as
-    g - 0.5) starts at the root, reads the page, stops if the value is on it, otherwise takes the
-    child slot the value falls into; an empty slot ends the search. Shares nothing with
-    advisor.layout.evaluate but the arrays.
-    """
-    if hist.n == 0:
-        return 0.0
-    children: dict[tuple[int, int], int] = {}
-    for page in range(1, layout.pages):
-        children[(int(layout.parent[page]), int(layout.slot[page]))] = page
+def path_finder(layout: Layout):
+    """A function giving the pages a search for a value reads, root first, by walking the page
+    key lists and child slots (independent of advisor's own path helpers). A value is a key rank,
+    or g - 0.5 for gap g (strictly between ranks g-1 and g)."""
+    children = {(int(layout.parent[p]), int(layout.slot[p])): p for p in range(1, layout.pages)}
     keys = [list(layout.keys_of(p)) for p in range(layout.pages)]
 
-    def reads(value: float) -> int:
-        page, n_read = 0, 0
+    def path(value: float) -> list[int]:
+        page, pages = 0, []
         while True:
-            n_read += 1
+            pages.append(page)
             ks = keys[page]
             pos = bisect.bisect_left(ks, value)
             if pos < len(ks) and ks[pos] == value:
-                return n_read
+                return pages
             nxt = children.get((page, pos))
             if nxt is None:
-                return n_read
+                return pages
             page = nxt
 
-    total = sum(hist.p[k] * reads(k) for k in range(hist.n))
-    total += sum(hist.q[g] * reads(g - 0.5) for g in range(hist.n + 1))
+    return path
+
+
+def replay_cost(layout: Layout, hist: Histogram) -> float:
+    """Walk every key and gap down the tree the way a search would, counting pages read: the
+    search stops at the page holding the value or at an empty child slot. Shares nothing with
+    advisor.layout.evaluate but the arrays."""
+    if hist.n == 0:
+        return 0.0
+    path = path_finder(layout)
+    total = sum(hist.p[k] * len(path(k)) for k in range(hist.n))
+    total += sum(hist.q[g] * len(path(g - 0.5)) for g in range(hist.n + 1))
     return total / hist.total if hist.total > 0 else 0.0
-
-
-def search_path(layout: Layout, value: float) -> list[int]:
-    """Pages a search for ``value`` (a rank, or g - 0.5 for gap g) reads, root first, by walking
-    the page key lists and child slots (independent of advisor's own path helpers)."""
-    children = {(int(layout.parent[p]), int(layout.slot[p])): p for p in range(1, layout.pages)}
-    page, path = 0, []
-    while True:
-        path.append(page)
-        ks = list(layout.keys_of(page))
-        pos = bisect.bisect_left(ks, value)
-        if pos < len(ks) and ks[pos] == value:
-            return path
-        nxt = children.get((page, pos))
-        if nxt is None:
-            return path
-        page = nxt
 
 
 def brute_force_optimum(p, q, c) -> float:

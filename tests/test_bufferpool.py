@@ -13,7 +13,7 @@ from advisor.histogram import Histogram
 from advisor.layout import evaluate, page_traffic
 from advisor.optimize import hot_first_layout, uniform_layout
 
-from .conftest import search_path
+from .conftest import path_finder
 
 
 def _log(rng, n, lookups):
@@ -36,8 +36,9 @@ def test_pinned_cache_matches_simulation(seed):
     ids, hist = _log(rng, n, 3000)
     for layout in (uniform_layout(n, 4), hot_first_layout(hist, 4, 1)):
         reads = Counter()
+        path = path_finder(layout)
         for i in ids:
-            reads.update(search_path(layout, _value(int(i), n)))
+            reads.update(path(_value(int(i), n)))
         total_reads = sum(reads.values())
         assert total_reads / ids.size == pytest.approx(evaluate(layout, hist).expected_page_reads, rel=1e-12)
         traffic = page_traffic(layout, hist)
@@ -56,11 +57,12 @@ def test_lru_replay_matches_cachetools(seed):
     for layout in (uniform_layout(n, 3), hot_first_layout(hist, 3, 1)):
         sizes = [1, 2, 5, 20, 200]
         ours = lru_misses(layout, replay, sizes)
+        path = path_finder(layout)
         for b, mine in zip(sizes, ours):
             cache = LRUCache(maxsize=b)
             misses = 0
             for i in ids:
-                for page in search_path(layout, _value(int(i), n)):
+                for page in path(_value(int(i), n)):
                     if page in cache:
                         cache[page]  # a read refreshes recency
                     else:

@@ -14,17 +14,18 @@ from advisor.layout import scan_pages
 from advisor.optimize import hot_first_layout, uniform_layout
 from advisor.workload import load_scans, load_workload
 
-from .conftest import random_hist, search_path
+from .conftest import path_finder, random_hist
 
 
 def walked_pages(layout, a, b):
     """Every page on the search path of every key in a..b (what an in-order walk reads); an
     empty range walks the path of its gap."""
+    path = path_finder(layout)
     if a > b:
-        return len(search_path(layout, a - 0.5))
+        return len(path(a - 0.5))
     pages = set()
     for k in range(a, b + 1):
-        pages.update(search_path(layout, float(k)))
+        pages.update(path(float(k)))
     return len(pages)
 
 

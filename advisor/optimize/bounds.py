@@ -46,21 +46,20 @@ def level_capacity_bound(hist: Histogram, c: int) -> float:
         w[1:] += (1 - alpha) * hist.q[1:-1]  # and onto key g
         w[0] += hist.q[0]
         w[-1] += hist.q[-1]
-        best = max(best, _pack_levels(w, c) / total)
+        best = max(best, pack_levels(w, 1, c, c + 1) / total)
     return best
 
 
-def _pack_levels(w: np.ndarray, c: int) -> float:
-    """min over level assignments of sum w * depth, levels of c (c+1)^(d-1) slots."""
+def pack_levels(w: np.ndarray, first_depth: int, first_size: int, growth: int) -> float:
+    """min over level assignments of sum w * depth: ``first_size`` slots at ``first_depth``,
+    each deeper level ``growth`` times the one above; the heaviest weights go shallowest."""
     ws = np.sort(w)[::-1]
-    n = ws.size
-    cum = np.cumsum(ws)
-    cost, start, d, size = 0.0, 0, 1, c
-    while start < n:
-        end = min(n, start + size)
-        cost += d * (cum[end - 1] - (cum[start - 1] if start else 0.0))
-        start, d = end, d + 1
-        size = size * (c + 1)
+    cum = np.concatenate([[0.0], np.cumsum(ws)])
+    cost, start, d, size = 0.0, 0, first_depth, first_size
+    while start < ws.size:
+        end = min(ws.size, start + size)
+        cost += d * (cum[end] - cum[start])
+        start, d, size = end, d + 1, size * growth
     return float(cost)
 
 

@@ -25,6 +25,7 @@ import numpy as np
 
 from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
+from .bounds import pack_levels
 
 
 def bplus_weights(hist: Histogram) -> np.ndarray:
@@ -106,6 +107,26 @@ def bplus_chain(F: int) -> dict[int, tuple[int, int]]:
 def bplus_work(n: int, F: int) -> float:
     """Element operations of the exact B+ solver."""
     return float(len(bplus_chain(F)) * n**3 / 6)
+
+
+def build_bplus_top_down(n: int, L: int, F: int, children, state=None) -> Layout:
+    """The one top-down builder of the B+-tree constructions: every range of at most L keys is a
+    leaf; ``children(lo, hi, state)`` splits a longer range lo..hi-1 into the (lo, hi) ranges of
+    its page's children, left to right, and returns the state handed to them."""
+    b = LayoutBuilder(n, L, "bplus", F)
+    if n == 0:
+        return b.build()
+    todo = deque([(0, n, -1, -1, state)])
+    while todo:
+        lo, hi, parent, slot, st = todo.popleft()
+        if hi - lo <= L:
+            b.add(np.arange(lo, hi), parent, slot, leaf=True)
+            continue
+        kids, child_state = children(lo, hi, st)
+        page = b.add(np.array([a for a, _ in kids[1:]], dtype=np.int64), parent, slot, leaf=False)
+        for k, (a, z) in enumerate(kids):
+            todo.append((a, z, page, k, child_state))
+    return b.build()
 
 
 def solve_bplus_exact(hist: Histogram, L: int, F: int) -> BplusExact:
@@ -196,18 +217,7 @@ def _children(t: _T, i: int, j: int, F: int) -> list[tuple[int, int]]:
 
 
 def _rebuild(t: _T, n: int, L: int, F: int) -> Layout:
-    b = LayoutBuilder(n, L, "bplus", F)
-    todo = deque([(0, n, -1, -1)])
-    while todo:
-        i, j, parent, slot = todo.popleft()
-        if j - i <= L:
-            b.add(np.arange(i, j), parent, slot, leaf=True)
-            continue
-        kids = _children(t, i, j, F)
-        page = b.add(np.array([lo for lo, _ in kids[1:]]), parent, slot, leaf=False)
-        for k, (lo, hi) in enumerate(kids):
-            todo.append((lo, hi, page, k))
-    return b.build()
+    return build_bplus_top_down(n, L, F, lambda i, j, _s: (_children(t, i, j, F), None))
 
 
 def full_leaves_exact(hist: Histogram, L: int, F: int) -> Layout:
@@ -247,26 +257,20 @@ def balanced_bplus(hist: Histogram, L: int, F: int, spread: float = 0.1) -> Layo
     near-equal parts (``spread`` times the mean weight added per key so unread keys still
     spread out); ranges of at most L keys become leaves. O(n log n)."""
     n = hist.n
-    b = LayoutBuilder(n, L, "bplus", F)
     if n == 0:
-        return b.build()
+        return LayoutBuilder(0, L, "bplus", F).build()
     w = bplus_weights(hist)
     w = w + spread * (w.sum() / n if w.sum() > 0 else 1.0)
     cum = np.concatenate([[0.0], np.cumsum(w)])
-    todo = deque([(0, n, -1, -1)])
-    while todo:
-        lo, hi, parent, slot = todo.popleft()
-        if hi - lo <= L:
-            b.add(np.arange(lo, hi), parent, slot, leaf=True)
-            continue
+
+    def cut(lo: int, hi: int, _state) -> tuple[list[tuple[int, int]], None]:
         parts = min(F, hi - lo)
         targets = cum[lo] + (cum[hi] - cum[lo]) * np.arange(1, parts) / parts
         cuts = np.unique(np.clip(np.searchsorted(cum[lo + 1 : hi], targets) + lo + 1, lo + 1, hi - 1))
-        page = b.add(cuts, parent, slot, leaf=False)
-        edges = np.concatenate([[lo], cuts, [hi]])
-        for k in range(edges.size - 1):
-            todo.append((int(edges[k]), int(edges[k + 1]), page, k))
-    return b.build()
+        edges = np.concatenate([[lo], cuts, [hi]]).tolist()
+        return list(zip(edges[:-1], edges[1:])), None
+
+    return build_bplus_top_down(n, L, F, cut)
 
 
 def bplus_level_bound(hist: Histogram, L: int, F: int) -> float:
@@ -277,14 +281,7 @@ def bplus_level_bound(hist: Histogram, L: int, F: int) -> float:
         return 0.0
     if hist.n <= L:
         return 1.0
-    ws = np.sort(bplus_weights(hist))[::-1]
-    cum = np.concatenate([[0.0], np.cumsum(ws)])
-    cost, start, d, size = 0.0, 0, 2, L * F
-    while start < ws.size:
-        end = min(ws.size, start + size)
-        cost += d * (cum[end] - cum[start])
-        start, d, size = end, d + 1, size * F
-    return float(cost / hist.total)
+    return pack_levels(bplus_weights(hist), 2, L * F, F) / hist.total
 
 
 def leaves_to_tree(n: int, L: int, F: int, starts: np.ndarray, height: int) -> Layout:
@@ -358,26 +355,15 @@ def hot_first_bplus(hist: Histogram, L: int, F: int, extra_levels: int = 0) -> L
     instead of sharing deep leaves with thousands of cold keys. O(n log n).
     """
     n = hist.n
-    b = LayoutBuilder(n, L, "bplus", F)
-    if n == 0:
-        return b.build()
     w = bplus_weights(hist)
-    order = np.argsort(-w, kind="stable")
     rank = np.empty(n, dtype=np.int64)
-    rank[order] = np.arange(n)  # 0 = hottest
-    top = bplus_height(n, L, F) + extra_levels
-    todo = deque([(0, n, -1, -1, top)])
-    while todo:
-        lo, hi, parent, slot, h = todo.popleft()
-        if hi - lo <= L or h <= 1:
-            b.add(np.arange(lo, hi), parent, slot, leaf=True)
-            continue
+    rank[np.argsort(-w, kind="stable")] = np.arange(n)  # 0 = hottest
+
+    def hottest(lo: int, hi: int, h: int) -> tuple[list[tuple[int, int]], int]:
         cap = L * F ** (h - 2)  # keys a child subtree of h-1 levels can hold
-        kids = _hot_children(rank[lo:hi], lo, hi, F, cap)
-        page = b.add(np.array([a for a, _ in kids[1:]], dtype=np.int64), parent, slot, leaf=False)
-        for k, (a, z) in enumerate(kids):
-            todo.append((a, z, page, k, h - 1))
-    return b.build()
+        return _hot_children(rank[lo:hi], lo, hi, F, cap), h - 1
+
+    return build_bplus_top_down(n, L, F, hottest, bplus_height(n, L, F) + extra_levels)
 
 
 def _hot_children(rank: np.ndarray, lo: int, hi: int, F: int, cap: int) -> list[tuple[int, int]]:
