@@ -21,7 +21,7 @@ from .histogram import Histogram
 from .holdout import holdout_rows
 from .layout import evaluate
 from .pagesize import PROFILES, StorageProfile, best_choice, default_pool_bytes, page_size_table
-from .planner import OPS_PER_SECOND, Plan, PlanOptions, plan_capacity
+from .planner import Plan, PlanOptions, plan_capacity
 from .scans import scan_figures
 from .serialize import cost_dict, run_dict
 from .workload import Workload, load_replay, load_scans, load_split, truncated_separator_bytes
@@ -153,7 +153,7 @@ def analyse(wl: Workload, req: Request, on_plan: Callable[[int, str], None] | No
         targets = [(c, replace(g, separator_bytes=truncated_separator_bytes(wl, c)) if g else g) for c, g in targets]
     unique = list({(c, g.page_size if g else None): (c, g) for c, g in targets}.values())
     options = PlanOptions(smoothing=req.smoothing, model=s.model, fanout=req.fanout or 0,
-                          exact_max_ops=req.exact_seconds * OPS_PER_SECOND)  # fmt: skip
+                          exact_seconds=req.exact_seconds)  # fmt: skip
     plans = advise(wl.hist, unique, options, on_plan)
     replay = load_replay(wl, req.order_column, req.replay_limit) if req.order_column else None
     pools = [pool_figures(p.uniform, p.recommended, wl.hist, replay, req.pool_pages) for p in plans]

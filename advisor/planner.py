@@ -15,15 +15,15 @@ from .geometry import Geometry
 from .histogram import Histogram
 from .layout import Cost, Layout, check_layout, evaluate
 from .errors import SettingInvalid
-from .optimize import balanced_layout, exact_work, heaviest_first_layout, hot_first_layout, lower_bounds, polish, solve_exact, uniform_layout
+from .optimize import balanced_layout, exact_seconds, exact_work, heaviest_first_layout, integer_weights, hot_first_layout, lower_bounds, polish, solve_exact, uniform_layout
 from .optimize.bplus import (
     balanced_bplus, bplus_chain, bplus_level_bound, bplus_window_bound, bplus_work, full_leaves_balanced, full_leaves_exact, hot_first_bplus,
     leaf_count,
     solve_bplus_exact, uniform_bplus,
 )  # fmt: skip
 
-OPS_PER_SECOND = 3e8  # element operations of the exact DP per second, measured on this machine kind
-EXACT_MAX_OPS = 5 * OPS_PER_SECOND  # run the exact DP when it should take about 5 s or less
+OPS_PER_SECOND = 3e8  # element operations of the float64 B+ DP per second, measured on this machine kind
+EXACT_SECONDS = 5.0  # run the exact DP when it should take about 5 s or less
 EXACT_MAX_BYTES = 2.0e9
 
 
@@ -31,7 +31,7 @@ def near_candidates(hist: Histogram, c: int, model: str = "btree", fanout: int =
     """(name, builder) of every near-optimal construction the planner tries."""
     if model == "bplus":
         leaves = leaf_count(hist.n, c)
-        if bplus_work(leaves, fanout) <= (opts.exact_max_ops if opts else EXACT_MAX_OPS):
+        if bplus_work(leaves, fanout) / OPS_PER_SECOND <= (opts.exact_seconds if opts else EXACT_SECONDS):
             yield "full leaves, exact internal pages", lambda: full_leaves_exact(hist, c, fanout)
         yield "hot keys in leaves of their own", lambda: hot_first_bplus(hist, c, fanout, 0)
         yield "hot keys in leaves of their own, one level more", lambda: hot_first_bplus(hist, c, fanout, 1)
@@ -92,7 +92,7 @@ class Plan:
 
 @dataclass
 class PlanOptions:
-    exact_max_ops: float = EXACT_MAX_OPS
+    exact_seconds: float = EXACT_SECONDS  # estimated run time the exact DP may take
     exact_max_bytes: float = EXACT_MAX_BYTES
     polish_ops: float = 3e8  # exact DP work spent re-solving small subtrees of a near plan
     smoothing: float = 0.0  # plan on hist.smoothed(smoothing); costs are always on the raw histogram
@@ -119,19 +119,20 @@ def plan_capacity(
         raise SettingInvalid("a B+-tree plan needs a fanout of at least 2 (give --fanout with --keys-per-page)")
     if bplus:
         uni = uniform_bplus(hist.n, c, F)
-        ops = bplus_work(hist.n, F) if hist.n > c else 0.0
+        seconds = bplus_work(hist.n, F) / OPS_PER_SECOND if hist.n > c else 0.0
         mem = (2 * len(bplus_chain(F)) + 4) * (hist.n + 1) ** 2 * 8.0 if hist.n > c else 0.0
         solve = lambda h: solve_bplus_exact(h, c, F)  # noqa: E731
     else:
         uni = uniform_layout(hist.n, c)
-        ops, mem = exact_work(hist.n, c)
+        integer = integer_weights(fit, c)
+        seconds, mem = exact_seconds(hist.n, c, integer), exact_work(hist.n, c, integer)[1]
         solve = lambda h: solve_exact(h, c)  # noqa: E731
     uni_cost = evaluate(uni, hist)
     dp_objective = None
     if hist.total <= 0:
         # nothing is looked up: every layout costs 0, so keep the layout the loader would build
         best, best_cost, method, proven = uni, uni_cost, "no lookups: even split kept", True
-    elif ops <= opts.exact_max_ops and mem <= opts.exact_max_bytes:
+    elif seconds <= opts.exact_seconds and mem <= opts.exact_max_bytes:
         step("exact")
         res = solve(fit)
         best, method, proven = res.layout, "exact DP", opts.smoothing <= 0

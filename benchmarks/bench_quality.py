@@ -59,7 +59,7 @@ def main() -> None:
             rel = lambda x: 100 * (x / opt - 1)  # noqa: E731
             cells = [rel(evaluate(build(), h).expected_page_reads) for _, build in near_candidates(h, c)]
             t0 = time.perf_counter()
-            plan = plan_capacity(h, c, options=PlanOptions(exact_max_ops=0))
+            plan = plan_capacity(h, c, options=PlanOptions(exact_seconds=0))
             t_plan = time.perf_counter() - t0
             b = lower_bounds(h, c)
             print(

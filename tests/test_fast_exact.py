@@ -9,28 +9,33 @@ from hypothesis import strategies as st
 
 from advisor.histogram import Histogram
 from advisor.layout import check_layout, evaluate
-from advisor.optimize import halving_chain, hot_first_layout, polish, solve_exact, solve_textbook, uniform_layout
+from advisor.optimize import forest_chain, integer_weights, hot_first_layout, polish, solve_exact, solve_textbook, uniform_layout
 
 from .conftest import random_hist, replay_cost
 
 
-def test_halving_chain_is_closed_and_logarithmic():
+def test_forest_chain_is_a_binary_addition_chain():
+    # Knuth, TAOCP Vol. 2, 4.6.3: the binary method reaches t in floor(log2 t) + popcount(t) - 1 steps
     for c in (1, 2, 3, 7, 12, 100, 341, 1000):
-        split = halving_chain(c)
+        split = forest_chain(c)
         assert c in split
         for s, (a, b) in split.items():
             assert a + b + 1 == s
             assert a == 0 or a in split
             assert b == 0 or b in split
-        assert len(split) <= 2 * int(np.log2(c)) + 2
+        t = c + 1
+        assert len(split) == int(np.log2(t)) + bin(t).count("1") - 1
 
 
 shapes = st.sampled_from(["random", "zeros", "equal", "dominant", "misses-only"])
 
 
 @settings(max_examples=150, deadline=None)
-@given(n=st.integers(1, 60), c=st.integers(1, 70), shape=shapes, seed=st.integers(0, 10_000))
-def test_halving_equals_textbook(n, c, shape, seed):
+@given(n=st.integers(1, 60), c=st.integers(1, 70), shape=shapes, seed=st.integers(0, 10_000),
+       scale=st.sampled_from([1.0, 0.37, 4e9]))
+def test_halving_equals_textbook(n, c, shape, seed, scale):
+    # scale 1: whole counts (int32 tables); 0.37: fractional weights and 4e9: counts too large
+    # for int32 (both float64 tables)
     rng = np.random.default_rng(seed)
     p = rng.integers(0, 100, n).astype(float)
     q = rng.integers(0, 40, n + 1).astype(float)
@@ -45,7 +50,8 @@ def test_halving_equals_textbook(n, c, shape, seed):
         p[:] = 0
     if p.sum() + q.sum() == 0:
         q[0] = 1
-    hist = Histogram(p, q)
+    hist = Histogram(p * scale, q * scale)
+    assert integer_weights(hist, c) == (scale == 1.0)
     fast, slow = solve_exact(hist, c), solve_textbook(hist, c)
     check_layout(fast.layout)
     assert fast.objective == pytest.approx(slow.objective, rel=1e-12, abs=1e-12)

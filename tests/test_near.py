@@ -37,7 +37,7 @@ def test_balanced_layout_is_valid_and_replays(spread, c):
 @pytest.mark.parametrize("clustered", [False, True])
 def test_planner_without_exact_is_between_bound_and_uniform(s, clustered):
     hist = _zipf_hist(3000, s, 5, clustered=clustered)
-    plan = plan_capacity(hist, 40, options=PlanOptions(exact_max_ops=0))
+    plan = plan_capacity(hist, 40, options=PlanOptions(exact_seconds=0))
     assert not plan.proven_optimal
     check_layout(plan.recommended)
     assert plan.recommended_cost.expected_page_reads <= plan.uniform_cost.expected_page_reads
@@ -49,7 +49,7 @@ def test_planner_without_exact_is_between_bound_and_uniform(s, clustered):
 def test_near_optimal_close_to_exact_where_both_run(c):
     hist = _zipf_hist(250, 1.0, c)
     exact = solve_exact(hist, c).objective
-    near = plan_capacity(hist, c, options=PlanOptions(exact_max_ops=0)).recommended_cost.expected_page_reads
+    near = plan_capacity(hist, c, options=PlanOptions(exact_seconds=0)).recommended_cost.expected_page_reads
     assert exact <= near + 1e-12
     # recorded, not a promise: the weight-balanced path stays within 15% here
     assert near <= exact * 1.15
@@ -58,7 +58,7 @@ def test_near_optimal_close_to_exact_where_both_run(c):
 def test_flat_weights_never_worse_than_uniform():
     n = 5000
     hist = Histogram(np.ones(n), np.ones(n + 1))
-    plan = plan_capacity(hist, 30, options=PlanOptions(exact_max_ops=0))
+    plan = plan_capacity(hist, 30, options=PlanOptions(exact_seconds=0))
     assert plan.recommended_cost.expected_page_reads <= plan.uniform_cost.expected_page_reads
     for b in lower_bounds(hist, 30).values():
         assert b <= plan.recommended_cost.expected_page_reads

@@ -5,7 +5,7 @@ any size), ``uniform_layout`` (the even-split baseline) and ``lower_bounds``.
 """
 
 from .bounds import entropy_bound, level_capacity_bound, lower_bounds
-from .exact import exact_work, halving_chain, solve_exact, solve_textbook, textbook_work
+from .exact import exact_seconds, exact_work, forest_chain, integer_weights, solve_exact, solve_textbook, textbook_work
 from .near import balanced_layout, heaviest_first_layout, hot_first_layout, polish
 from .uniform import min_height, uniform_layout
 
@@ -13,7 +13,9 @@ __all__ = [
     "balanced_layout",
     "entropy_bound",
     "exact_work",
-    "halving_chain",
+    "exact_seconds",
+    "forest_chain",
+    "integer_weights",
     "solve_textbook",
     "textbook_work",
     "heaviest_first_layout",
