@@ -16,6 +16,7 @@ from .histogram import Histogram
 from .layout import Cost, Layout, check_layout, evaluate
 from .errors import SettingInvalid
 from .optimize import balanced_layout, exact_seconds, exact_work, heaviest_first_layout, integer_weights, hot_first_layout, lower_bounds, polish, solve_exact, uniform_layout
+from .optimize.recut import recut
 from .optimize.bplus import (
     balanced_bplus, bplus_chain, bplus_level_bound, bplus_window_bound, bplus_work, full_leaves_balanced, full_leaves_exact, hot_first_bplus,
     leaf_count,
@@ -95,6 +96,7 @@ class PlanOptions:
     exact_seconds: float = EXACT_SECONDS  # estimated run time the exact DP may take
     exact_max_bytes: float = EXACT_MAX_BYTES
     polish_ops: float = 3e8  # exact DP work spent re-solving small subtrees of a near plan
+    recut_ops: float = 3e9  # exact DP work spent re-cutting windows of page keys (classic B-tree)
     smoothing: float = 0.0  # plan on hist.smoothed(smoothing); costs are always on the raw histogram
     model: str = "btree"  # or "bplus" (keys only in leaves, variable depth)
     fanout: int = 0  # bplus with a direct capacity: children per internal page
@@ -158,6 +160,12 @@ def plan_capacity(
                 v = evaluate(polished, fit).expected_page_reads
                 if v < best_value:
                     best_value, method, best = v, name + " + exact small subtrees", polished
+        if opts.recut_ops > 0 and not bplus and best is not uni:
+            step("exact re-cuts of page keys")
+            cut = recut(best, fit, opts.recut_ops)
+            v = evaluate(cut, fit).expected_page_reads
+            if v < best_value:
+                best_value, method, best = v, method + " + exact re-cuts", cut
         best_cost = evaluate(best, hist)
         proven = False
     if opts.check:

@@ -47,9 +47,10 @@ def replay_cost(layout: Layout, hist: Histogram) -> float:
     return total / hist.total if hist.total > 0 else 0.0
 
 
-def brute_force_optimum(p, q, c) -> float:
+def brute_force_optimum(p, q, c, root_size=None) -> float:
     """Minimum cost over EVERY B-tree of capacity c: each range tries every key subset of size
-    1..c as its root page (no full-page lemma, no forest recurrence). Returns cost / total."""
+    1..c as its root page (no full-page lemma, no forest recurrence). Returns cost / total.
+    With ``root_size``, only trees whose root page holds exactly that many keys."""
     p = tuple(float(x) for x in p)
     q = tuple(float(x) for x in q)
     n = len(p)
@@ -64,7 +65,8 @@ def brute_force_optimum(p, q, c) -> float:
         w = weight(lo, hi)
         top = float("inf")
         keys = range(lo, hi)
-        for size in range(1, min(c, hi - lo) + 1):
+        sizes = [root_size] if (root_size and (lo, hi) == (0, n)) else range(1, min(c, hi - lo) + 1)
+        for size in sizes:
             for roots in combinations(keys, size):
                 edges = (lo - 1,) + roots + (hi,)
                 sub = sum(best(a + 1, b) for a, b in zip(edges[:-1], edges[1:]))

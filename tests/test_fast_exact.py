@@ -11,7 +11,7 @@ from advisor.histogram import Histogram
 from advisor.layout import check_layout, evaluate
 from advisor.optimize import forest_chain, integer_weights, hot_first_layout, polish, solve_exact, solve_textbook, uniform_layout
 
-from .conftest import random_hist, replay_cost
+from .conftest import brute_force_optimum, random_hist, replay_cost
 
 
 def test_forest_chain_is_a_binary_addition_chain():
@@ -80,3 +80,31 @@ def test_polish_is_valid_and_never_worse(c):
         after_layout = polish(layout, hist, ops_budget=5e7, max_subtree_ops=5e6)
         check_layout(after_layout)
         assert evaluate(after_layout, hist).expected_page_reads <= before + 1e-12
+
+
+@settings(max_examples=60, deadline=None)
+@given(n=st.integers(2, 7), c=st.integers(1, 5), seed=st.integers(0, 10_000), data=st.data())
+def test_forced_root_size_equals_brute_force(n, c, seed, data):
+    # the re-cut's building block: best tree whose root page holds exactly w keys
+    if n <= c:
+        c = n - 1
+    w = data.draw(st.integers(1, c))
+    hist = random_hist(np.random.default_rng(seed), n)
+    res = solve_exact(hist, c, root_keys=w)
+    check_layout(res.layout)
+    assert res.layout.keys_of(0).size == w
+    assert res.objective == pytest.approx(brute_force_optimum(hist.p, hist.q, c, root_size=w), rel=1e-12, abs=1e-12)
+    assert evaluate(res.layout, hist).expected_page_reads == pytest.approx(res.objective, rel=1e-12, abs=1e-12)
+
+
+@settings(max_examples=40, deadline=None)
+@given(n=st.integers(20, 60), c=st.integers(1, 12), seed=st.integers(0, 10_000), data=st.data())
+def test_forced_root_size_equals_textbook_forest(n, c, seed, data):
+    # against the textbook tables: W(0, n) + F(0, n, w) (Vaishnavi, Kriegel & Wood 1980)
+    from advisor.optimize.exact import _tables
+
+    w = data.draw(st.integers(1, c))
+    hist = random_hist(np.random.default_rng(seed), n)
+    res = solve_exact(hist, c, root_keys=w)
+    t = _tables(hist.p, hist.q, c)
+    assert res.objective == pytest.approx((hist.total + t.F[w][0, n]) / hist.total, rel=1e-12)

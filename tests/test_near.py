@@ -4,11 +4,14 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from scipy.stats import zipfian
 
 from advisor.histogram import Histogram
 from advisor.layout import check_layout, evaluate
-from advisor.optimize import balanced_layout, heaviest_first_layout, lower_bounds, solve_exact
+from advisor.optimize import balanced_layout, heaviest_first_layout, lower_bounds, solve_exact, uniform_layout
+from advisor.optimize.recut import recut
 from advisor.planner import PlanOptions, plan_capacity
 
 from .conftest import random_hist, replay_cost
@@ -62,3 +65,25 @@ def test_flat_weights_never_worse_than_uniform():
     assert plan.recommended_cost.expected_page_reads <= plan.uniform_cost.expected_page_reads
     for b in lower_bounds(hist, 30).values():
         assert b <= plan.recommended_cost.expected_page_reads
+
+
+@settings(max_examples=25, deadline=None)
+@given(n=st.integers(10, 160), c=st.integers(1, 9), seed=st.integers(0, 10_000), width=st.integers(1, 3))
+def test_recut_is_valid_never_worse_and_not_below_optimum(n, c, seed, width):
+    # each accepted move is an exact optimum of its piece, so the cost can only fall, and never
+    # below the exact optimum (solve_exact, itself checked against the textbook DP)
+    hist = random_hist(np.random.default_rng(seed), n)
+    start = uniform_layout(n, c)
+    cut = recut(start, hist, 1e9, width)
+    check_layout(cut)
+    before = evaluate(start, hist).expected_page_reads
+    after = evaluate(cut, hist).expected_page_reads
+    best = solve_exact(hist, c).objective
+    assert best - 1e-12 <= after <= before + 1e-12
+
+
+def test_recut_keeps_an_optimal_layout_optimal():
+    hist = random_hist(np.random.default_rng(5), 300)
+    opt = solve_exact(hist, 6)
+    cut = recut(opt.layout, hist, 1e9, 2)
+    assert evaluate(cut, hist).expected_page_reads == pytest.approx(opt.objective, rel=1e-12)

@@ -143,10 +143,11 @@ _INT_LIMIT = 2**29  # largest cost kept in int32: two of them still add without 
 _BLOCK = 1 << 15  # elements per row block of one minimisation (256 KiB of float64)
 
 
-def forest_chain(c: int) -> dict[int, tuple[int, int]]:
-    """Forest sizes needed for G(., ., c), each mapped to its (left, right) split (binary method)."""
+def forest_chain(*sizes: int) -> dict[int, tuple[int, int]]:
+    """Forest sizes needed for G(., ., s) for each given s, each mapped to its (left, right) split
+    (binary method; one rule per size, so chains for several sizes merge consistently)."""
     split: dict[int, tuple[int, int]] = {}
-    todo = [c]
+    todo = list(sizes)
     while todo:
         s = todo.pop()
         if s == 0 or s in split:
@@ -157,9 +158,9 @@ def forest_chain(c: int) -> dict[int, tuple[int, int]]:
     return split
 
 
-def length_limits(split: dict[int, tuple[int, int]], c: int, n: int) -> dict[int, int]:
+def length_limits(split: dict[int, tuple[int, int]], tops: tuple[int, ...], n: int) -> dict[int, int]:
     """Longest range each forest size is needed for: a part never spans its siblings' keys."""
-    longest = {c: n}
+    longest = {t: n for t in tops}
     for s in sorted(split, reverse=True):
         a, b = split[s]
         longest[a] = max(longest.get(a, 0), longest[s] - 1 - b)
@@ -172,7 +173,7 @@ def exact_work(n: int, c: int, integer: bool = False) -> tuple[float, float]:
     if n <= c:
         return float(n), 0.0
     split = forest_chain(c)
-    longest = length_limits(split, c, n)
+    longest = length_limits(split, (c,), n)
     ops = 0.0
     for s in split:
         L = np.arange(c + 1 if s == c else s, longest[s] + 1, dtype=np.float64)
@@ -196,20 +197,27 @@ def integer_weights(hist: Histogram, c: int) -> bool:
     return float(w.sum()) * max(1, min_height(hist.n, c)) < _INT_LIMIT
 
 
-def solve_exact(hist: Histogram, c: int, integer: bool | None = None) -> ExactResult:
+def solve_exact(hist: Histogram, c: int, integer: bool | None = None, root_keys: int | None = None) -> ExactResult:
     """Return an optimal classic B-tree layout of capacity ``c`` and its DP objective.
 
     O(n^3 log c) time, O(n^2 log c) memory; equal to :func:`solve_textbook` (tested).
     ``integer`` picks int32 tables (None: whenever :func:`integer_weights` allows them).
+    ``root_keys`` = w < c asks instead for the best tree whose root page holds exactly w keys
+    (its w + 1 subtrees still optimal), the piece a local re-cut of w page keys needs; it
+    requires n > c.
     """
     n = hist.n
-    if n <= c:
+    w = c if root_keys is None else root_keys
+    if n <= c and w == c:
         return _one_page(hist, c)
+    if not 1 <= w <= min(c, n - 1) or n <= c:
+        raise ValueError(f"root_keys={root_keys} needs 1 <= root_keys <= c < n (c={c}, n={n})")
     if integer is None or (integer and not integer_weights(hist, c)):
         integer = integer_weights(hist, c)
-    t = _halving_tables(hist.p, hist.q, c, integer)
-    layout = _halving_rebuild(t, n, c)
-    return ExactResult(layout, float(t.start[0][0, n]) / hist.total if hist.total > 0 else 0.0)
+    t = _halving_tables(hist.p, hist.q, c, integer, w)
+    layout = _halving_rebuild(t, n, c, w)
+    top = float(t.start[w][0, n]) + hist.total if w != c else float(t.start[0][0, n])
+    return ExactResult(layout, top / hist.total if hist.total > 0 else 0.0)
 
 
 @dataclass
@@ -220,13 +228,14 @@ class _HalvingTables:
     # columns run by n - L so that the right parts of one row minimisation are a forward slice
 
 
-def _halving_tables(p: np.ndarray, q: np.ndarray, c: int, integer: bool = False) -> _HalvingTables:
+def _halving_tables(p: np.ndarray, q: np.ndarray, c: int, integer: bool = False, top: int | None = None) -> _HalvingTables:
     n = p.size
     dtype = np.int32 if integer else np.float64
     inf = _INT_LIMIT if integer else np.inf  # never read where a value is needed; kept finite
-    split = forest_chain(c)
-    longest = length_limits(split, c, n)
-    lefts = {a for a, _ in split.values()} | {0}
+    top = c if top is None else top
+    split = forest_chain(c, top)
+    longest = length_limits(split, (c, top), n)
+    lefts = {a for a, _ in split.values()} | {0, top}
     rights = {b for _, b in split.values()} | {0}
     start = {s: np.full((n + 1, n + 1), inf, dtype=dtype) for s in lefts | {c}}
     end = {s: np.full((n + 1, n + 1), inf, dtype=dtype) for s in rights}
@@ -289,10 +298,10 @@ def _forest_roots(t: _HalvingTables, i: int, j: int, s: int, out: list) -> None:
         stack.append((i, r - 1, a, False, 0))
 
 
-def _halving_rebuild(t: _HalvingTables, n: int, c: int) -> Layout:
-    def roots(i: int, j: int, _state) -> tuple[np.ndarray, None]:
+def _halving_rebuild(t: _HalvingTables, n: int, c: int, top: int) -> Layout:
+    def roots(i: int, j: int, size: int) -> tuple[np.ndarray, int]:
         out: list[int] = []
-        _forest_roots(t, i, j, c, out)
-        return np.asarray(out) - 1, None
+        _forest_roots(t, i, j, size, out)
+        return np.asarray(out) - 1, c
 
-    return build_top_down(n, c, roots)
+    return build_top_down(n, c, roots, top)

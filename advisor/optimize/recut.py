@@ -1,0 +1,150 @@
+"""Local exact re-cut: re-choose a few neighbouring keys of a page, solving the subtrees below.
+
+Take a page P and w consecutive keys of it. Those keys and the w + 1 subtrees around them
+cover one key range U (from P's key before the window to P's key after it). Every lookup in U
+reads P and the pages above it whatever U's inside looks like, so swapping the w keys and their
+subtrees for the best tree piece on U whose top holds w keys (``solve_exact(..., root_keys=w)``)
+changes the total cost by exactly (new subtrees' cost - old subtrees' cost), never upwards.
+Windows slide over each page, heaviest pages first, until a sweep finds nothing or the work
+budget is spent. The result is a local optimum: the planner still reports the gap to a bound.
+
+This is the "solve the top levels exactly, then repair" idea made safe: each accepted move is
+an exact optimum of its piece, and a piece's cost does not depend on the rest of the tree.
+"""
+
+from __future__ import annotations
+
+import heapq
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..histogram import Histogram
+from ..layout import Layout, LayoutBuilder
+from .exact import exact_work, solve_exact
+
+
+@dataclass
+class _Node:
+    keys: list[int]  # ascending global key ranks
+    kids: list["_Node | None"]  # one per slot, len(keys) + 1
+    exact: bool = False  # an exact optimum of its own range: nothing below can improve
+    cost: float | None = field(default=None, repr=False)  # C(subtree), cached
+
+
+def recut(layout: Layout, hist: Histogram, ops_budget: float = 1e9, width: int = 2,
+          max_window_ops: float = 5e8, passes: int = 4) -> Layout:  # fmt: skip
+    """Improve a classic B-tree layout by exact re-cuts of ``width``-key windows of its pages.
+
+    Passes repeat while they gain: a deeper page improved in one pass changes what its
+    parent's windows trade off in the next."""
+    c, n = layout.capacity, layout.n_keys
+    if layout.structure != "btree" or layout.pages <= 1 or n <= c:
+        return layout
+    root = _to_nodes(layout)
+    budget = [ops_budget]
+    for _ in range(passes):
+        if not _one_pass(root, hist, c, n, budget, width, max_window_ops) or budget[0] <= 0:
+            break
+        root = _to_nodes(_to_layout(root, n, c))  # fresh nodes: every page may be re-cut again
+    return _to_layout(root, n, c)
+
+
+def _one_pass(root: _Node, hist: Histogram, c: int, n: int, budget: list, width: int, max_window_ops: float,
+              sweeps: int = 3) -> bool:  # fmt: skip
+    """One top-down pass of sliding re-cuts; True when any was taken."""
+    P = np.concatenate([[0.0], np.cumsum(hist.p)])
+    Q = np.concatenate([[0.0], np.cumsum(hist.q)])
+
+    def weight(lo: int, hi: int) -> float:  # keys lo..hi-1 and gaps lo..hi
+        return float(P[hi] - P[lo] + Q[hi + 1] - Q[lo])
+
+    cap = _largest_affordable(c, max_window_ops)  # windows over more keys are skipped unsolved
+    improved = False
+    bounds = {id(root): (0, n)}  # key range [lo, hi) of each node still to visit
+    heap = [(-weight(0, n), 0, root)]
+    order = 1
+    while heap and budget[0] > 0:
+        _, _, node = heapq.heappop(heap)
+        lo, hi = bounds.pop(id(node))
+        for _ in range(sweeps):
+            changed = False
+            w = min(width, len(node.keys))
+            for a in range(len(node.keys) - w + 1):
+                begin = node.keys[a - 1] + 1 if a > 0 else lo
+                end = node.keys[a + w] if a + w < len(node.keys) else hi
+                size = end - begin
+                if size <= c or size > cap:
+                    continue
+                work = exact_work(size, c)[0] * 1.5  # the w-key top adds at most half again
+                if work > budget[0]:
+                    continue
+                budget[0] -= work
+                old = sum(_subtree_cost(k, weight) for k in node.kids[a : a + w + 1] if k is not None)
+                sub = Histogram(hist.p[begin:end], hist.q[begin : end + 1])
+                piece = _to_nodes(solve_exact(sub, c, root_keys=w).layout, shift=begin, exact=True)
+                new = sum(_subtree_cost(k, weight) for k in piece.kids if k is not None)
+                if new < old - 1e-9 * max(old, 1.0):
+                    node.keys[a : a + w] = piece.keys
+                    node.kids[a : a + w + 1] = piece.kids
+                    node.cost = None
+                    changed = improved = True
+            if not changed:
+                break
+        for i, kid in enumerate(node.kids):
+            if kid is not None and not kid.exact and kid.keys and len(kid.kids) > 1 and any(kid.kids):
+                klo = node.keys[i - 1] + 1 if i > 0 else lo
+                khi = node.keys[i] if i < len(node.keys) else hi
+                bounds[id(kid)] = (klo, khi)
+                heapq.heappush(heap, (-weight(klo, khi), order, kid))
+                order += 1
+    return improved
+
+
+def _largest_affordable(c: int, max_ops: float) -> int:
+    """Largest range the exact solver handles within ``max_ops`` (binary search on its work)."""
+    lo, hi = c, 1 << 20
+    while lo < hi:
+        mid = (lo + hi + 1) // 2
+        if exact_work(mid, c)[0] * 1.5 <= max_ops:
+            lo = mid
+        else:
+            hi = mid - 1
+    return lo
+
+
+def _subtree_cost(node: _Node, weight) -> float:
+    """C(subtree): every lookup in the subtree's range reads its root, then its own child."""
+    if node.cost is None:
+        lo, hi = _span(node)
+        node.cost = weight(lo, hi) + sum(_subtree_cost(k, weight) for k in node.kids if k is not None)
+    return node.cost
+
+
+def _span(node: _Node) -> tuple[int, int]:
+    left, right = node, node
+    while left.kids[0] is not None:
+        left = left.kids[0]
+    while right.kids[-1] is not None:
+        right = right.kids[-1]
+    return left.keys[0], right.keys[-1] + 1
+
+
+def _to_nodes(layout: Layout, shift: int = 0, exact: bool = False) -> _Node:
+    nodes = [_Node([int(k) + shift for k in layout.keys_of(p)], [None] * (layout.keys_of(p).size + 1), exact)
+             for p in range(layout.pages)]  # fmt: skip
+    for p in range(1, layout.pages):
+        nodes[int(layout.parent[p])].kids[int(layout.slot[p])] = nodes[p]
+    return nodes[0]
+
+
+def _to_layout(root: _Node, n: int, c: int) -> Layout:
+    b = LayoutBuilder(n, c)
+    todo = [(root, -1, -1)]
+    while todo:
+        nxt = []
+        for node, parent, slot in todo:
+            page = b.add(np.asarray(node.keys, dtype=np.int64), parent, slot)
+            nxt += [(k, page, s) for s, k in enumerate(node.kids) if k is not None]
+        todo = nxt
+    return b.build()
