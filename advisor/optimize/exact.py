@@ -24,6 +24,7 @@ re-running each minimisation on one row, so no argmin tables are stored.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 
@@ -168,6 +169,7 @@ def length_limits(split: dict[int, tuple[int, int]], tops: tuple[int, ...], n: i
     return longest
 
 
+@lru_cache(maxsize=4096)
 def exact_work(n: int, c: int, integer: bool = False) -> tuple[float, float]:
     """(element operations, bytes) the fast solver needs for n keys and capacity c."""
     if n <= c:
