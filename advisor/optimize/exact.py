@@ -117,7 +117,7 @@ def _rebuild(t: _Tables, n: int, c: int) -> Layout:
 
 
 # ---------------------------------------------------------------------------------------------
-# The fast exact solver: forests combined by halving instead of one key at a time.
+# The fast exact solver: forests combined along an addition chain, not one key at a time.
 #
 # G(i, j, s) = cheapest forest of s root keys and s + 1 subtrees covering (i, j] (G(., ., 0) = C).
 # Splitting the forest at its a-th root key r gives, for any 1 <= a <= s,
@@ -216,21 +216,21 @@ def solve_exact(hist: Histogram, c: int, integer: bool | None = None, root_keys:
         raise ValueError(f"root_keys={root_keys} needs 1 <= root_keys <= c < n (c={c}, n={n})")
     if integer is None or (integer and not integer_weights(hist, c)):
         integer = integer_weights(hist, c)
-    t = _halving_tables(hist.p, hist.q, c, integer, w)
-    layout = _halving_rebuild(t, n, c, w)
+    t = _forest_tables(hist.p, hist.q, c, integer, w)
+    layout = _forest_rebuild(t, n, c, w)
     top = float(t.start[w][0, n]) + hist.total if w != c else float(t.start[0][0, n])
     return ExactResult(layout, top / hist.total if hist.total > 0 else 0.0)
 
 
 @dataclass
-class _HalvingTables:
+class _ForestTables:
     split: dict
     start: dict  # s -> array [i, L] = G(i, i + L, s), for s used as a left part (and 0 = C)
     end: dict  # s -> array [j, n - L] = G(j - L, j, s), for s used as a right part (and 0 = C);
     # columns run by n - L so that the right parts of one row minimisation are a forward slice
 
 
-def _halving_tables(p: np.ndarray, q: np.ndarray, c: int, integer: bool = False, top: int | None = None) -> _HalvingTables:
+def _forest_tables(p: np.ndarray, q: np.ndarray, c: int, integer: bool = False, top: int | None = None) -> _ForestTables:
     n = p.size
     dtype = np.int32 if integer else np.float64
     inf = _INT_LIMIT if integer else np.inf  # never read where a value is needed; kept finite
@@ -274,10 +274,10 @@ def _halving_tables(p: np.ndarray, q: np.ndarray, c: int, integer: bool = False,
         C = w if L <= c else w + start[c][:m, L]
         start[0][:m, L] = C
         end[0][L:, n - L] = C
-    return _HalvingTables(split, start, end)
+    return _ForestTables(split, start, end)
 
 
-def _forest_roots(t: _HalvingTables, i: int, j: int, s: int, out: list) -> None:
+def _forest_roots(t: _ForestTables, i: int, j: int, s: int, out: list) -> None:
     """Append the 1-based root keys of an optimal s-key forest on (i, j], left to right."""
     stack = [(i, j, s, False, 0)]
     while stack:
@@ -300,7 +300,7 @@ def _forest_roots(t: _HalvingTables, i: int, j: int, s: int, out: list) -> None:
         stack.append((i, r - 1, a, False, 0))
 
 
-def _halving_rebuild(t: _HalvingTables, n: int, c: int, top: int) -> Layout:
+def _forest_rebuild(t: _ForestTables, n: int, c: int, top: int) -> Layout:
     def roots(i: int, j: int, size: int) -> tuple[np.ndarray, int]:
         out: list[int] = []
         _forest_roots(t, i, j, size, out)
