@@ -11,6 +11,7 @@ from scipy.stats import zipfian
 
 from advisor.histogram import Histogram
 from advisor.optimize import entropy_bound, level_capacity_bound, solve_exact
+from advisor.optimize.bounds import root_runs_bound, runs_weight_upper
 
 from .conftest import brute_force_optimum, random_hist
 
@@ -65,3 +66,55 @@ def test_bounds_below_exact_optimum_on_zipf(c):
     opt = solve_exact(hist, c).objective
     assert entropy_bound(hist, c) <= opt + 1e-12
     assert level_capacity_bound(hist, c) <= opt + 1e-12
+
+
+def _runs(mask: np.ndarray) -> int:
+    return int(np.sum(mask[1:] & ~mask[:-1]) + mask[0]) if mask.size else 0
+
+
+@settings(max_examples=60, deadline=None)
+@given(n=st.integers(1, 11), c=st.integers(1, 5), heavy=st.integers(1, 12), seed=st.integers(0, 10_000))
+def test_runs_weight_upper_bounds_every_subset(n, c, heavy, seed):
+    # brute force over all 2^n key subsets: the most weight of <= c keys in exactly r runs
+    w = np.random.default_rng(seed).integers(0, 50, n).astype(float)
+    upper = runs_weight_upper(w, c, heavy)
+    exact = np.full(c + 1, -np.inf)
+    for bits in range(1 << n):
+        mask = np.array([(bits >> i) & 1 for i in range(n)], dtype=bool)
+        r = _runs(mask)
+        if mask.sum() <= c and r <= c:
+            exact[r] = max(exact[r], w[mask].sum())
+    reachable = np.isfinite(exact)
+    assert np.all(upper[reachable] >= exact[reachable] - 1e-9)
+
+
+def _clustered(rng, n):
+    # hottest keys side by side in key order, as when a few key ranges take the traffic
+    p = np.round(1e4 / np.arange(1, n + 1) ** rng.uniform(0.6, 1.4))
+    start = int(rng.integers(0, n))
+    p = np.roll(p, start)
+    q = rng.integers(0, 20, n + 1).astype(float)
+    return Histogram(p, q)
+
+
+@settings(max_examples=60, deadline=None)
+@given(n=st.integers(1, 7), c=st.integers(1, 4), seed=st.integers(0, 10_000), clustered=st.booleans())
+def test_root_runs_bound_below_brute_force(n, c, seed, clustered):
+    rng = np.random.default_rng(seed)
+    hist = _clustered(rng, n) if clustered else random_hist(rng, n)
+    assert root_runs_bound(hist, c) <= brute_force_optimum(hist.p, hist.q, c) + 1e-12
+
+
+@settings(max_examples=40, deadline=None)
+@given(n=st.integers(20, 250), c=st.integers(1, 14), seed=st.integers(0, 10_000), clustered=st.booleans())
+def test_root_runs_bound_between_level_bound_and_optimum(n, c, seed, clustered):
+    rng = np.random.default_rng(seed)
+    hist = _clustered(rng, n) if clustered else random_hist(rng, n)
+    bound = root_runs_bound(hist, c)
+    assert level_capacity_bound(hist, c) - 1e-12 <= bound <= solve_exact(hist, c).objective + 1e-12
+
+
+def test_root_runs_bound_gains_on_clustered_hot_keys():
+    # consecutive hottest keys: the bound must beat the order-blind level bound
+    hist = _clustered(np.random.default_rng(1), 400)
+    assert root_runs_bound(hist, 8) > level_capacity_bound(hist, 8) * 1.02

@@ -4,7 +4,7 @@
 any size), ``uniform_layout`` (the even-split baseline) and ``lower_bounds``.
 """
 
-from .bounds import entropy_bound, level_capacity_bound, lower_bounds
+from .bounds import entropy_bound, level_capacity_bound, lower_bounds, root_runs_bound
 from .exact import exact_seconds, exact_work, forest_chain, integer_weights, solve_exact, solve_textbook, textbook_work
 from .near import balanced_layout, heaviest_first_layout, hot_first_layout, polish
 from .uniform import min_height, uniform_layout
@@ -23,6 +23,7 @@ __all__ = [
     "polish",
     "level_capacity_bound",
     "lower_bounds",
+    "root_runs_bound",
     "min_height",
     "solve_exact",
     "uniform_layout",

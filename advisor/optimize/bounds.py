@@ -65,4 +65,110 @@ def pack_levels(w: np.ndarray, first_depth: int, first_size: int, growth: int) -
 
 def lower_bounds(hist: Histogram, c: int) -> dict[str, float]:
     """Every bound by name; the planner takes the max."""
-    return {"entropy": entropy_bound(hist, c), "level_capacity": level_capacity_bound(hist, c)}
+    return {"entropy": entropy_bound(hist, c), "level_capacity": level_capacity_bound(hist, c),
+            "root_runs": root_runs_bound(hist, c)}  # fmt: skip
+
+
+def root_runs_bound(hist: Histogram, c: int, heavy: int | None = None) -> float:
+    """The level-capacity bound, charged for hot keys that sit next to each other in key order.
+
+    Proof. Move miss weights onto keys as in :func:`level_capacity_bound` (valid for any
+    tree); w are the key weights. Let S be the root page's keys, |S| <= c, forming r maximal
+    runs of consecutive keys. Every other key lies in one of at most r + 1 holes between the
+    runs, each hole's keys in one subtree below the root, so at most (r+1)((c+1)^j - 1) of them
+    have depth <= j + 1. Hence cost >= w(S) + pack_r(keys not in S), pack_r being the best
+    assignment of depths >= 2 under those capacities. Removing the c heaviest keys (top) instead
+    of S leaves weights that are element-wise no heavier, and each unit of weight swapped in
+    costs at least depth 2, so pack_r(not S) >= pack_r(not top) + 2 (w(top) - w(S)). So
+    cost >= w(top) + pack_r(not top) + (w(top) - N_r), with N_r the most weight <= c keys can
+    have in exactly r runs, and the bound is the minimum of that over r = 1..c. With r = c and
+    N_c <= w(top) it is never below the level-capacity bound; it gains where the hottest keys
+    are clustered (they cannot all sit in the root and still leave room at depth 2).
+
+    N_r is over-estimated, which keeps the bound valid: only the ``heavy`` (default 2c + 2)
+    heaviest keys are kept, each other key counted at tau, the heaviest weight left out; m light
+    keys change the run count by at most m; and the count limit is relaxed by Lagrange
+    multipliers lambda >= 0 (weak duality, min over a grid of lambda).
+    """
+    n, total = hist.n, hist.total
+    if n == 0 or total <= 0 or n <= c:
+        return level_capacity_bound(hist, c)
+    best = 0.0
+    for alpha in (0.0, 0.5, 1.0):
+        w = hist.p.copy()
+        w[:-1] += alpha * hist.q[1:-1]
+        w[1:] += (1 - alpha) * hist.q[1:-1]
+        w[0] += hist.q[0]
+        w[-1] += hist.q[-1]
+        best = max(best, _root_runs(w, c, heavy or 2 * c + 2) / total)
+    return best
+
+
+def _root_runs(w: np.ndarray, c: int, heavy: int) -> float:
+    ws = np.sort(w)[::-1]
+    top = float(ws[:c].sum())
+    rest_cum = np.concatenate([[0.0], np.cumsum(ws[c:])])
+    N = runs_weight_upper(w, c, heavy)
+    out = np.inf
+    for r in range(1, c + 1):
+        if N[r] == -np.inf:
+            continue  # no set of <= c keys has exactly r runs
+        out = min(out, top + _pack_holes(rest_cum, c, r) + (top - N[r]))
+    return float(out)
+
+
+def _pack_holes(cum: np.ndarray, c: int, r: int) -> float:
+    """pack_r: depth j + 1 >= 2 holds cumulatively (r+1)((c+1)^j - 1) keys, heaviest first."""
+    size = cum.size - 1
+    cost, start, j = 0.0, 0, 1
+    while start < size:
+        end = min(size, (r + 1) * ((c + 1) ** j - 1))
+        cost += (j + 1) * (cum[end] - cum[start])
+        start, j = end, j + 1
+    return cost
+
+
+def runs_weight_upper(w: np.ndarray, c: int, heavy: int) -> np.ndarray:
+    """U[r] >= the most weight of at most c keys forming exactly r runs (r = 0..c; -inf: none)."""
+    n = w.size
+    order = np.argsort(-w, kind="stable")
+    m = min(n, heavy)
+    keep = np.sort(order[:m])
+    tau = float(w[order[m]]) if m < n else 0.0
+    light = min(c, n - m)
+    hw = w[keep]
+    adjacent = np.concatenate([[False], np.diff(keep) == 1])
+    lambdas = np.unique(np.concatenate([[0.0], np.sort(hw)[::-1][np.unique(np.geomspace(1, m, 40).astype(int)) - 1]]))
+    U = np.full(c + 1, np.inf)
+    for lam in lambdas:
+        D = _runs_dp(hw - lam, adjacent, c)  # D[r]: best sum of (w - lam) in exactly r runs
+        bound = D + lam * c
+        reach = D
+        for ml in range(1, light + 1):  # ml light keys, each worth at most tau
+            reach = _widen(reach)  # run count moved by at most ml
+            bound = np.maximum(bound, reach + lam * (c - ml) + tau * ml)
+        U = np.minimum(U, bound)
+    return U
+
+
+def _runs_dp(v: np.ndarray, adjacent: np.ndarray, c: int) -> np.ndarray:
+    """max over subsets with exactly r runs (r = 0..c) of the sum of v; -inf where impossible."""
+    inn = np.full(c + 1, -np.inf)
+    out = np.full(c + 1, -np.inf)
+    out[0] = 0.0
+    for x, adj in zip(v.tolist(), adjacent.tolist()):
+        both = np.maximum(inn, out)
+        new_in = np.full(c + 1, -np.inf)
+        new_in[1:] = (out if adj else both)[:-1] + x  # a new run starts here
+        if adj:
+            np.maximum(new_in, inn + x, out=new_in)  # or the previous key's run goes on
+        inn, out = new_in, both
+    return np.maximum(inn, out)
+
+
+def _widen(D: np.ndarray) -> np.ndarray:
+    """out[r] = max(D[r-1], D[r], D[r+1])."""
+    out = D.copy()
+    np.maximum(out[1:], D[:-1], out=out[1:])
+    np.maximum(out[:-1], D[1:], out=out[:-1])
+    return out
