@@ -19,14 +19,15 @@ from .conftest import brute_force_bplus, random_hist
 
 
 @settings(max_examples=120, deadline=None)
-@given(data=st.data(), L=st.integers(1, 3), F=st.integers(2, 4))
-def test_exact_equals_brute_force(data, L, F):
+@given(data=st.data(), L=st.integers(1, 3), F=st.integers(2, 5), scale=st.sampled_from([1.0, 0.37]))
+def test_exact_equals_brute_force(data, L, F, scale):
+    # scale 1: whole counts (int32 tables); 0.37: fractional weights (float64 tables)
     n = data.draw(st.integers(1, 7))
     p = data.draw(st.lists(st.integers(0, 30), min_size=n, max_size=n))
     q = data.draw(st.lists(st.integers(0, 30), min_size=n + 1, max_size=n + 1))
     if sum(p) + sum(q) == 0:
         p[0] = 1
-    hist = Histogram(np.array(p, float), np.array(q, float))
+    hist = Histogram(np.array(p, float) * scale, np.array(q, float) * scale)
     res = solve_bplus_exact(hist, L, F)
     check_layout(res.layout)
     want = brute_force_bplus(bplus_weights(hist), L, F) / hist.total
@@ -327,3 +328,12 @@ def test_disjoint_runs_dp_matches_brute_force():
         M = best_disjoint_windows(np.array(w), L, 4)
         for x in range(M.size):
             assert M[x] == pytest.approx(best(0, x))
+
+
+@settings(max_examples=30, deadline=None)
+@given(n=st.integers(2, 80), L=st.integers(1, 6), F=st.integers(2, 12), seed=st.integers(0, 10_000))
+def test_exact_int32_tables_equal_float64(n, L, F, seed):
+    hist = random_hist(np.random.default_rng(seed), n)
+    fast, slow = solve_bplus_exact(hist, L, F), solve_bplus_exact(hist, L, F, integer=False)
+    assert fast.objective == pytest.approx(slow.objective, rel=1e-12, abs=1e-12)
+    check_layout(fast.layout)
