@@ -39,15 +39,18 @@ def level_capacity_bound(hist: Histogram, c: int) -> float:
     n, total = hist.n, hist.total
     if n == 0 or total <= 0:
         return 0.0
-    best = 0.0
-    for alpha in (0.0, 0.5, 1.0):
-        w = hist.p.copy()
-        w[:-1] += alpha * hist.q[1:-1]  # gap g (1..n-1) share onto key g-1
-        w[1:] += (1 - alpha) * hist.q[1:-1]  # and onto key g
-        w[0] += hist.q[0]
-        w[-1] += hist.q[-1]
-        best = max(best, pack_levels(w, 1, c, c + 1) / total)
-    return best
+    return max(pack_levels(key_weights(hist, alpha), 1, c, c + 1) / total for alpha in (0.0, 0.5, 1.0))
+
+
+def key_weights(hist: Histogram, alpha: float) -> np.ndarray:
+    """Hits plus misses moved onto keys: share alpha of gap g onto key g-1, the rest onto key g
+    (the end gaps whole onto their only neighbour); no tree costs less on these than on (p, q)."""
+    w = hist.p.copy()
+    w[:-1] += alpha * hist.q[1:-1]
+    w[1:] += (1 - alpha) * hist.q[1:-1]
+    w[0] += hist.q[0]
+    w[-1] += hist.q[-1]
+    return w
 
 
 def pack_levels(w: np.ndarray, first_depth: int, first_size: int, growth: int) -> float:
@@ -93,15 +96,7 @@ def root_runs_bound(hist: Histogram, c: int, heavy: int | None = None) -> float:
     n, total = hist.n, hist.total
     if n == 0 or total <= 0 or n <= c:
         return level_capacity_bound(hist, c)
-    best = 0.0
-    for alpha in (0.0, 0.5, 1.0):
-        w = hist.p.copy()
-        w[:-1] += alpha * hist.q[1:-1]
-        w[1:] += (1 - alpha) * hist.q[1:-1]
-        w[0] += hist.q[0]
-        w[-1] += hist.q[-1]
-        best = max(best, _root_runs(w, c, heavy or 2 * c + 2) / total)
-    return best
+    return max(_root_runs(key_weights(hist, alpha), c, heavy or 2 * c + 2) / total for alpha in (0.0, 0.5, 1.0))
 
 
 def _root_runs(w: np.ndarray, c: int, heavy: int) -> float:

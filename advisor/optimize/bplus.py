@@ -26,7 +26,7 @@ import numpy as np
 from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
 from .bounds import pack_levels
-from .exact import _BLOCK, _INT_LIMIT
+from .exact import _BLOCK, _INT_LIMIT, fits_int32
 
 
 def bplus_weights(hist: Histogram) -> np.ndarray:
@@ -144,18 +144,10 @@ def solve_bplus_exact(hist: Histogram, L: int, F: int, integer: bool | None = No
         return BplusExact(b.build(), 1.0 if n and hist.total > 0 else 0.0)
     w = bplus_weights(hist)
     if integer is None or integer:
-        integer = _integer_ok(w, n, L, F)
+        integer = fits_int32(w, bplus_height(n, L, F))
     t = _tables(w, L, F, integer)
     layout = _rebuild(t, n, L, F)
     return BplusExact(layout, float(t.A_start[0, n]) / hist.total if hist.total > 0 else 0.0)
-
-
-def _integer_ok(w: np.ndarray, n: int, L: int, F: int) -> bool:
-    """Whole counts whose costs fit int32 (optimal costs are at most total x the even split's
-    height, and two of them must still add without overflow)."""
-    if not np.all(np.isfinite(w)) or not np.array_equal(w, np.rint(w)):
-        return False
-    return float(w.sum()) * bplus_height(n, L, F) < _INT_LIMIT
 
 
 @dataclass

@@ -193,10 +193,15 @@ def integer_weights(hist: Histogram, c: int) -> bool:
     """True when the weights are whole counts small enough for exact int32 tables."""
     from .uniform import min_height
 
-    w = np.concatenate([hist.p, hist.q])
+    return fits_int32(np.concatenate([hist.p, hist.q]), min_height(hist.n, c))
+
+
+def fits_int32(w: np.ndarray, height: int) -> bool:
+    """Whole weights whose optimal costs (at most total x a valid tree's height) fit int32 with
+    room for adding two of them."""
     if not np.all(np.isfinite(w)) or not np.array_equal(w, np.rint(w)):
         return False
-    return float(w.sum()) * max(1, min_height(hist.n, c)) < _INT_LIMIT
+    return float(w.sum()) * max(1, height) < _INT_LIMIT
 
 
 def solve_exact(hist: Histogram, c: int, integer: bool | None = None, root_keys: int | None = None) -> ExactResult:
