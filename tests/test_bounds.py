@@ -118,3 +118,11 @@ def test_root_runs_bound_gains_on_clustered_hot_keys():
     # consecutive hottest keys: the bound must beat the order-blind level bound
     hist = _clustered(np.random.default_rng(1), 400)
     assert root_runs_bound(hist, 8) > level_capacity_bound(hist, 8) * 1.02
+
+
+def test_root_runs_bound_never_below_level_bound_at_large_capacity():
+    # few Lagrange multipliers at large c over-estimate run weights loosely; the bound must
+    # still fall back to the level bound (r = c with the c heaviest keys), never below it
+    hist = _clustered(np.random.default_rng(2), 30_000)
+    for c in (1500, 4096):
+        assert root_runs_bound(hist, c) >= level_capacity_bound(hist, c) - 1e-12

@@ -103,7 +103,7 @@ def _root_runs(w: np.ndarray, c: int, heavy: int) -> float:
     ws = np.sort(w)[::-1]
     top = float(ws[:c].sum())
     rest_cum = np.concatenate([[0.0], np.cumsum(ws[c:])])
-    N = runs_weight_upper(w, c, heavy)
+    N = np.minimum(runs_weight_upper(w, c, heavy), top)  # no c keys outweigh the c heaviest
     out = np.inf
     for r in range(1, c + 1):
         if N[r] == -np.inf:
@@ -133,7 +133,10 @@ def runs_weight_upper(w: np.ndarray, c: int, heavy: int) -> np.ndarray:
     light = min(c, n - m)
     hw = w[keep]
     adjacent = np.concatenate([[False], np.diff(keep) == 1])
-    lambdas = np.unique(np.concatenate([[0.0], np.sort(hw)[::-1][np.unique(np.geomspace(1, m, 40).astype(int)) - 1]]))
+    # any lambda >= 0 is valid; fewer of them for large c keeps the O(c^2) work per lambda bounded
+    count = int(np.clip(40 * (700 / max(c, 1)) ** 2, 6, 40))
+    ranks = np.unique(np.geomspace(1, m, count).astype(int)) - 1
+    lambdas = np.unique(np.concatenate([[0.0], np.sort(hw)[::-1][ranks]]))
     U = np.full(c + 1, np.inf)
     for lam in lambdas:
         D = _runs_dp(hw - lam, adjacent, c)  # D[r]: best sum of (w - lam) in exactly r runs
