@@ -35,6 +35,7 @@ def test_exact_equals_brute_force(data, L, F, scale):
     # both lower bounds stay below the brute-force optimum
     assert bplus_level_bound(hist, L, F) <= want + 1e-12
     assert bplus_window_bound(hist, L, F) <= want + 1e-12
+    assert bplus_window_bound(hist, L, F, work_cap=1.0) <= want + 1e-12  # on key blocks
     assert evaluate(res.layout, hist).expected_page_reads == pytest.approx(res.objective, rel=1e-12)
 
 
@@ -337,3 +338,15 @@ def test_exact_int32_tables_equal_float64(n, L, F, seed):
     fast, slow = solve_bplus_exact(hist, L, F), solve_bplus_exact(hist, L, F, integer=False)
     assert fast.objective == pytest.approx(slow.objective, rel=1e-12, abs=1e-12)
     check_layout(fast.layout)
+
+
+@settings(max_examples=40, deadline=None)
+@given(n=st.integers(2, 120), L=st.integers(1, 8), F=st.integers(2, 9), seed=st.integers(0, 10_000),
+       cap=st.sampled_from([1.0, 50.0, 400.0]))  # fmt: skip
+def test_window_bound_on_key_blocks_stays_below_the_optimum(n, L, F, seed, cap):
+    # a tiny work cap forces the block-coarsened disjoint-run DP; it may only over-estimate
+    # the answered weight, so the bound stays below the exact optimum
+    hist = random_hist(np.random.default_rng(seed), n)
+    best = solve_bplus_exact(hist, L, F).objective
+    assert bplus_window_bound(hist, L, F, work_cap=cap) <= best + 1e-12
+    assert bplus_window_bound(hist, L, F, work_cap=cap) <= bplus_window_bound(hist, L, F) + 1e-12

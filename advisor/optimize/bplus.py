@@ -411,7 +411,7 @@ def _hot_children(rank: np.ndarray, lo: int, hi: int, F: int, cap: int) -> list[
 
 
 WINDOW_DP_MAX = 600  # disjoint-window DP passes at most (each an O(n) vectorised sweep)
-WINDOW_DP_WORK = 3e8  # keys x passes; about 10 s on this machine kind, beyond it the DP is skipped
+WINDOW_DP_WORK = 3e8  # keys x passes (about 10 s on this machine kind); beyond it the DP runs on key blocks
 
 
 def best_disjoint_windows(w: np.ndarray, L: int, x_max: int) -> np.ndarray:
@@ -437,7 +437,7 @@ def best_disjoint_windows(w: np.ndarray, L: int, x_max: int) -> np.ndarray:
     return np.array(out)
 
 
-def bplus_window_bound(hist: Histogram, L: int, F: int) -> float:
+def bplus_window_bound(hist: Histogram, L: int, F: int, work_cap: float | None = None) -> float:
     """Lower bound that knows leaves are runs of consecutive keys.
 
     Kraft's inequality over the leaves of any tree with fanout F gives at most F^(d-1) leaves at
@@ -446,6 +446,11 @@ def bplus_window_bound(hist: Histogram, L: int, F: int) -> float:
     WINDOW_DP_MAX runs, each further run adds at most the heaviest single run), and at most the
     weight of the F^(d-1) L heaviest keys. Expected reads = sum over d >= 0 of the share not yet
     answered at depth <= d.
+
+    Past ``work_cap`` (keys x passes) the DP runs on blocks of b consecutive keys instead. A run
+    of L keys touches at most ceil((L-1)/b) + 1 blocks, and the block covers of disjoint runs can
+    only share end blocks, so their union is again at most as many disjoint runs of that many
+    blocks: the block DP over-estimates the answered weight, which keeps the bound valid.
     """
     n, total = hist.n, hist.total
     if n == 0 or total <= 0:
@@ -460,9 +465,12 @@ def bplus_window_bound(hist: Histogram, L: int, F: int) -> float:
     if -(-n // L) <= F:  # F runs of L consecutive keys already cover every key at depth 2
         return 2.0
     passes = min(F, WINDOW_DP_MAX)
-    if n * passes > WINDOW_DP_WORK:
-        passes = 0  # too large to run: only the key-count cap remains (the level bound)
-    M = best_disjoint_windows(w, L, passes)
+    cap = WINDOW_DP_WORK if work_cap is None else work_cap
+    block = max(1, -(-int(n * passes) // int(max(cap, 1))))  # keys per block of the DP
+    if block == 1:
+        M = best_disjoint_windows(w, L, passes)
+    else:
+        M = best_disjoint_windows(np.add.reduceat(w, np.arange(0, n, block)), -(-(L - 1) // block) + 1, passes)
     cost, d = 2.0, 2  # the d = 0 term and the d = 1 term (a root with children answers nothing)
     while True:
         x = F ** (d - 1)

@@ -33,7 +33,7 @@ class _Node:
 
 
 def recut(layout: Layout, hist: Histogram, ops_budget: float = 1e9, width: int = 2,
-          max_window_ops: float = 5e8, passes: int = 4) -> Layout:  # fmt: skip
+          max_window_ops: float = 1.2e9, passes: int = 4) -> Layout:  # fmt: skip
     """Improve a classic B-tree layout by exact re-cuts of ``width``-key windows of its pages.
 
     Passes repeat while they gain: a deeper page improved in one pass changes what its
@@ -42,10 +42,10 @@ def recut(layout: Layout, hist: Histogram, ops_budget: float = 1e9, width: int =
     if layout.structure != "btree" or layout.pages <= 1 or n <= c:
         return layout
     root = _to_nodes(layout)
-    if not _root_window_fits(root, n, width, _largest_affordable(c, max_window_ops)):
-        # most lookups are decided at the top; when the root's typical window is too large for
-        # the exact solver, the deeper re-cuts alone were measured to gain about 0.1% (1M keys)
-        # for several seconds of work
+    if not _root_window_fits(root, n, 1, _largest_affordable(c, max_window_ops)):
+        # most lookups are decided at the top; when even the root's typical one-key window is
+        # too large for the exact solver, the deeper re-cuts alone were measured to gain about
+        # 0.1% (1M keys) for several seconds of work
         return layout
     budget = [ops_budget]
     for _ in range(passes):
@@ -72,17 +72,20 @@ def _one_pass(root: _Node, hist: Histogram, c: int, n: int, budget: list, width:
     while heap and budget[0] > 0:
         _, _, node = heapq.heappop(heap)
         lo, hi = bounds.pop(id(node))
-        tried: set[tuple[int, int]] = set()  # windows solved without gain: same range, same answer
+        tried: set[tuple[int, int, int]] = set()  # windows solved without gain: same range, same answer
         for _ in range(sweeps):
             changed = False
-            w = min(width, len(node.keys))
             edges = np.array([lo - 1] + node.keys + [hi])
+            w = min(width, len(node.keys))
             sizes = edges[w + 1 :] - edges[: -w - 1] - 1
+            if w > 1 and np.median(sizes) > cap:  # windows too wide for the exact solver here
+                w = 1
+                sizes = edges[2:] - edges[:-2] - 1
             for a in np.nonzero((sizes > c) & (sizes <= cap))[0].tolist():
                 begin = node.keys[a - 1] + 1 if a > 0 else lo
                 end = node.keys[a + w] if a + w < len(node.keys) else hi
                 size = end - begin
-                if size <= c or size > cap or (begin, end) in tried:
+                if size <= c or size > cap or (begin, end, w) in tried:
                     continue
                 work = exact_work(size, c)[0] * 1.5  # the w-key top adds at most half again
                 if work > budget[0]:
@@ -98,7 +101,7 @@ def _one_pass(root: _Node, hist: Histogram, c: int, n: int, budget: list, width:
                     node.cost = None
                     changed = improved = True
                 else:
-                    tried.add((begin, end))
+                    tried.add((begin, end, w))
             if not changed:
                 break
         for i, kid in enumerate(node.kids):
