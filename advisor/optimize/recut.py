@@ -32,9 +32,12 @@ class _Node:
     cost: float | None = field(default=None, repr=False)  # C(subtree), cached
 
 
-def recut(layout: Layout, hist: Histogram, ops_budget: float = 1e9, width: int = 2,
+def recut(layout: Layout, hist: Histogram, ops_budget: float = 1e9, width: int = 4,
           max_window_ops: float = 1.2e9, passes: int = 4) -> Layout:  # fmt: skip
-    """Improve a classic B-tree layout by exact re-cuts of ``width``-key windows of its pages.
+    """Improve a classic B-tree layout by exact re-cuts of windows of up to ``width`` keys.
+
+    Each page uses the widest window whose typical range the exact solver can afford: wider
+    windows let keys move further (measured: 4 keys gain most at c = 20, 2 keys at c = 5).
 
     Passes repeat while they gain: a deeper page improved in one pass changes what its
     parent's windows trade off in the next."""
@@ -76,11 +79,10 @@ def _one_pass(root: _Node, hist: Histogram, c: int, n: int, budget: list, width:
         for _ in range(sweeps):
             changed = False
             edges = np.array([lo - 1] + node.keys + [hi])
-            w = min(width, len(node.keys))
-            sizes = edges[w + 1 :] - edges[: -w - 1] - 1
-            if w > 1 and np.median(sizes) > cap:  # windows too wide for the exact solver here
-                w = 1
-                sizes = edges[2:] - edges[:-2] - 1
+            for w in range(min(width, len(node.keys)), 0, -1):  # the widest window that fits
+                sizes = edges[w + 1 :] - edges[: -w - 1] - 1
+                if np.median(sizes) <= cap:
+                    break
             for a in np.nonzero((sizes > c) & (sizes <= cap))[0].tolist():
                 begin = node.keys[a - 1] + 1 if a > 0 else lo
                 end = node.keys[a + w] if a + w < len(node.keys) else hi
