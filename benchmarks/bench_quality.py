@@ -1,7 +1,7 @@
 """How close the near-optimal path gets to the exact optimum where both can run.
 
 Run: .venv/bin/python benchmarks/bench_quality.py [--n 2000]
-For each seeded workload and a capacity giving the even split 3-4 levels, prints the exact
+For each seeded workload and capacities giving the even split 3-5 levels, prints the exact
 optimum, each near-optimal construction, the planner's pick (exact forbidden) and the bounds,
 all as ratios to the optimum. Results: benchmarks/results/quality.txt.
 """
@@ -36,7 +36,7 @@ def histogram(kind: str, n: int, lookups: int, seed: int = 1) -> Histogram:
 def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--n", type=int, default=2000)
-    ap.add_argument("--caps", type=int, nargs="*", default=[7, 12])
+    ap.add_argument("--caps", type=int, nargs="*", default=[5, 7, 12, 20])
     args = ap.parse_args()
     n = args.n
     names = [name for name, _ in near_candidates(Histogram(np.ones(1), np.ones(2)), 1)]
