@@ -1,4 +1,4 @@
-"""The halving solver equals the textbook recurrence; near-optimal helpers keep layouts valid."""
+"""The fast forest solver equals the textbook recurrence; near-optimal helpers keep layouts valid."""
 
 from __future__ import annotations
 
@@ -33,7 +33,7 @@ shapes = st.sampled_from(["random", "zeros", "equal", "dominant", "misses-only"]
 @settings(max_examples=150, deadline=None)
 @given(n=st.integers(1, 60), c=st.integers(1, 70), shape=shapes, seed=st.integers(0, 10_000),
        scale=st.sampled_from([1.0, 0.37, 4e9]))
-def test_halving_equals_textbook(n, c, shape, seed, scale):
+def test_fast_solver_equals_textbook(n, c, shape, seed, scale):
     # scale 1: whole counts (int32 tables); 0.37: fractional weights and 4e9: counts too large
     # for int32 (both float64 tables)
     rng = np.random.default_rng(seed)

@@ -11,7 +11,7 @@ sum_k w_k depth(leaf(k)). With ranges (i, j] of keys i+1..j and lambda(i, j) the
     G(i, j, 1) = A(i, j),  G(i, j, s) = min(A(i, j), H(i, j, s))   (at most s subtrees)
 
 Splitting a forest of at most s subtrees into at most a and at most s - a subtrees is exact
-(every split point is tried), so only the O(log F) sizes of the halving chain are tabulated:
+(every split point is tried), so only the O(log F) sizes of an addition chain (bplus_chain) are tabulated:
 O(n^3 log F) time like the classic solver. Leaves cover ranges of at most L keys in one page,
 which is optimal for such a range (any internal page only adds lambda).
 """
