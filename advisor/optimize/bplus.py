@@ -7,7 +7,7 @@ sum_k w_k depth(leaf(k)). With ranges (i, j] of keys i+1..j and lambda(i, j) the
 
     A(i, j) = lambda(i, j)                         if j - i <= L   (one leaf)
     A(i, j) = lambda(i, j) + H(i, j, F)            otherwise       (an internal page)
-    H(i, j, s) = min_{i<r<j} G(i, r, a) + G(r, j, s - a)           (2..s children, a = s // 2)
+    H(i, j, s) = min_{i<r<j} G(i, r, a) + G(r, j, s - a)           (2..s children, a from bplus_chain)
     G(i, j, 1) = A(i, j),  G(i, j, s) = min(A(i, j), H(i, j, s))   (at most s subtrees)
 
 Splitting a forest of at most s subtrees into at most a and at most s - a subtrees is exact
