@@ -26,7 +26,7 @@ import numpy as np
 from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
 from .bounds import pack_levels
-from .exact import _BLOCK, _INT_LIMIT, fits_int32
+from .exact import _BLOCK, fits_int32, row_min_of_sums, table_type
 
 
 def bplus_weights(hist: Histogram) -> np.ndarray:
@@ -164,8 +164,7 @@ def _tables(w: np.ndarray, L: int, F: int, integer: bool = False) -> _T:
     split = bplus_chain(F)
     lefts = {a for a, _ in split.values()} | {1}
     rights = {b for _, b in split.values()} | {1}
-    dtype = np.int32 if integer else np.float64
-    inf = _INT_LIMIT if integer else np.inf  # never read where a value is needed
+    dtype, inf = table_type(integer)
     G_start = {s: np.full((n + 1, n + 1), inf, dtype=dtype) for s in lefts}
     G_end = {s: np.full((n + 1, n + 1), inf, dtype=dtype) for s in rights}
     A_start = G_start[1]
@@ -178,18 +177,12 @@ def _tables(w: np.ndarray, L: int, F: int, integer: bool = False) -> _T:
         lam = (W[ln:] - W[:m]).astype(dtype)
         hs = {}
         if ln >= 2:
-            width = ln - 1
-            rows = max(1, _BLOCK // width)
             for s in order:
                 a, b = split[s]
                 left = G_start[a][:m, 1:ln]  # left lengths 1..ln-1
                 right = G_end[b][ln:, n - ln + 1 : n]  # column n-len: right lengths ln-1..1
-                g = np.empty(m, dtype=dtype)
-                for r0 in range(0, m, rows):  # row blocks sized to stay in cache
-                    r1 = min(m, r0 + rows)
-                    out = buf[: (r1 - r0) * width].reshape(r1 - r0, width)
-                    np.add(left[r0:r1], right[r0:r1], out=out).min(axis=1, out=g[r0:r1])
-                hs[s] = g
+                hs[s] = np.empty(m, dtype=dtype)
+                row_min_of_sums(left, right, buf, hs[s])
         A = lam if ln <= L else lam + hs[F]
         A_start[:m, ln] = A
         if 1 in G_end:

@@ -31,6 +31,7 @@ import numpy as np
 from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
 from .topdown import build_top_down
+from .uniform import min_height
 
 
 @dataclass(frozen=True)
@@ -191,8 +192,6 @@ def exact_seconds(n: int, c: int, integer: bool = False) -> float:
 
 def integer_weights(hist: Histogram, c: int) -> bool:
     """True when the weights are whole counts small enough for exact int32 tables."""
-    from .uniform import min_height
-
     return fits_int32(np.concatenate([hist.p, hist.q]), min_height(hist.n, c))
 
 
@@ -202,6 +201,23 @@ def fits_int32(w: np.ndarray, height: int) -> bool:
     if not np.all(np.isfinite(w)) or not np.array_equal(w, np.rint(w)):
         return False
     return float(w.sum()) * max(1, height) < _INT_LIMIT
+
+
+def table_type(integer: bool) -> tuple[type, float]:
+    """(dtype, fill value) of DP tables: int32 with a finite sentinel that two can add without
+    overflow, or float64 with inf. The fill is never read where a value is needed."""
+    return (np.int32, _INT_LIMIT) if integer else (np.float64, np.inf)
+
+
+def row_min_of_sums(left: np.ndarray, right: np.ndarray, buf: np.ndarray, out: np.ndarray) -> None:
+    """out[i] = min_t left[i, t] + right[i, t], in row blocks of about _BLOCK elements so the
+    sums stay in cache (``buf`` holds at least one block)."""
+    m, width = left.shape
+    rows = max(1, _BLOCK // max(width, 1))
+    for r0 in range(0, m, rows):
+        r1 = min(m, r0 + rows)
+        block = buf[: (r1 - r0) * width].reshape(r1 - r0, width)
+        np.add(left[r0:r1], right[r0:r1], out=block).min(axis=1, out=out[r0:r1])
 
 
 def solve_exact(hist: Histogram, c: int, integer: bool | None = None, root_keys: int | None = None) -> ExactResult:
@@ -219,7 +235,7 @@ def solve_exact(hist: Histogram, c: int, integer: bool | None = None, root_keys:
         return _one_page(hist, c)
     if not 1 <= w <= min(c, n - 1) or n <= c:
         raise ValueError(f"root_keys={root_keys} needs 1 <= root_keys <= c < n (c={c}, n={n})")
-    if integer is None or (integer and not integer_weights(hist, c)):
+    if integer is None or integer:  # int32 only where it provably fits
         integer = integer_weights(hist, c)
     t = _forest_tables(hist.p, hist.q, c, integer, w)
     layout = _forest_rebuild(t, n, c, w)
@@ -237,8 +253,7 @@ class _ForestTables:
 
 def _forest_tables(p: np.ndarray, q: np.ndarray, c: int, integer: bool = False, top: int | None = None) -> _ForestTables:
     n = p.size
-    dtype = np.int32 if integer else np.float64
-    inf = _INT_LIMIT if integer else np.inf  # never read where a value is needed; kept finite
+    dtype, inf = table_type(integer)
     top = c if top is None else top
     split = forest_chain(c, top)
     longest = length_limits(split, (c, top), n)
@@ -262,14 +277,9 @@ def _forest_tables(p: np.ndarray, q: np.ndarray, c: int, integer: bool = False, 
                 continue  # never read: outside every enclosing forest, or a single page
             a, b = split[s]
             lo, hi = a, L - 1 - b  # left part length in [a, L-1-b]
-            width = hi - lo + 1
             left = start[a][:m, lo : hi + 1]
             right = end[b][L:, n - L + 1 + lo : n - L + 2 + hi]  # [i, t] = G(i+lo+t+1, i+L, b)
-            rows = max(1, _BLOCK // width)
-            for r0 in range(0, m, rows):
-                r1 = min(m, r0 + rows)
-                out = buf[: (r1 - r0) * width].reshape(r1 - r0, width)
-                np.add(left[r0:r1], right[r0:r1], out=out).min(axis=1, out=g[r0:r1])
+            row_min_of_sums(left, right, buf, g[:m])
             if s in start:
                 start[s][:m, L] = g[:m]
             if s in end:

@@ -37,37 +37,38 @@ def recut(layout: Layout, hist: Histogram, ops_budget: float = 1e9, width: int =
     """Improve a classic B-tree layout by exact re-cuts of windows of up to ``width`` keys.
 
     Each page uses the widest window whose typical range the exact solver can afford: wider
-    windows let keys move further (measured: 4 keys gain most at c = 20, 2 keys at c = 5).
+    windows let keys move further (in a check at n = 2,000: 4 keys gained most at c = 20, 2
+    keys at c = 5).
 
     Passes repeat while they gain: a deeper page improved in one pass changes what its
     parent's windows trade off in the next."""
     c, n = layout.capacity, layout.n_keys
     if layout.structure != "btree" or layout.pages <= 1 or n <= c:
         return layout
+    cap = _largest_affordable(c, max_window_ops)  # windows over more keys are skipped unsolved
     root = _to_nodes(layout)
-    if not _root_window_fits(root, n, 1, _largest_affordable(c, max_window_ops)):
+    if not _root_window_fits(root, n, cap):
         # most lookups are decided at the top; when the root's one-key windows mostly are too
         # large for the exact solver, the deeper re-cuts alone were measured to gain about 0.1%
-        # (1M keys) for several seconds of work
+        # (1M keys, in a bench_scale run) for several seconds of work
         return layout
-    budget = [ops_budget]
-    for _ in range(passes):
-        if not _one_pass(root, hist, c, n, budget, width, max_window_ops) or budget[0] <= 0:
-            break
-        root = _to_nodes(_to_layout(root, n, c))  # fresh nodes: every page may be re-cut again
-    return _to_layout(root, n, c)
-
-
-def _one_pass(root: _Node, hist: Histogram, c: int, n: int, budget: list, width: int, max_window_ops: float,
-              sweeps: int = 3) -> bool:  # fmt: skip
-    """One top-down pass of sliding re-cuts; True when any was taken."""
     P = np.concatenate([[0.0], np.cumsum(hist.p)])
     Q = np.concatenate([[0.0], np.cumsum(hist.q)])
 
     def weight(lo: int, hi: int) -> float:  # keys lo..hi-1 and gaps lo..hi
         return float(P[hi] - P[lo] + Q[hi + 1] - Q[lo])
 
-    cap = _largest_affordable(c, max_window_ops)  # windows over more keys are skipped unsolved
+    budget = [ops_budget]
+    for _ in range(passes):
+        if not _one_pass(root, hist, weight, c, n, budget, width, cap) or budget[0] <= 0:
+            break
+        root = _to_nodes(_to_layout(root, n, c))  # fresh nodes: every page may be re-cut again
+    return _to_layout(root, n, c)
+
+
+def _one_pass(root: _Node, hist: Histogram, weight, c: int, n: int, budget: list, width: int, cap: int,
+              sweeps: int = 3) -> bool:  # fmt: skip
+    """One top-down pass of sliding re-cuts; True when any was taken."""
     improved = False
     bounds = {id(root): (0, n)}  # key range [lo, hi) of each node still to visit
     heap = [(-weight(0, n), 0, root)]
@@ -86,10 +87,10 @@ def _one_pass(root: _Node, hist: Histogram, c: int, n: int, budget: list, width:
             for a in np.nonzero((sizes > c) & (sizes <= cap))[0].tolist():
                 begin = node.keys[a - 1] + 1 if a > 0 else lo
                 end = node.keys[a + w] if a + w < len(node.keys) else hi
-                size = end - begin
+                size = end - begin  # recomputed: a re-cut earlier in this sweep may have moved keys
                 if size <= c or size > cap or (begin, end, w) in tried:
                     continue
-                work = exact_work(size, c)[0] * 1.5  # the w-key top adds at most half again
+                work = _window_work(size, c)
                 if work > budget[0]:
                     continue
                 budget[0] -= work
@@ -116,7 +117,7 @@ def _one_pass(root: _Node, hist: Histogram, c: int, n: int, budget: list, width:
     return improved
 
 
-def _root_window_fits(root: _Node, n: int, width: int, cap: int) -> bool:
+def _root_window_fits(root: _Node, n: int, cap: int) -> bool:
     """True when the root's affordable one-key windows cover at least half of the keys below
     it (a few small windows inside a hot cluster are not enough: measured no gain at 1M keys)."""
     edges = np.array([-1] + root.keys + [n])
@@ -133,11 +134,16 @@ def _largest_affordable(c: int, max_ops: float) -> int:
     lo, hi = c, 1 << 20
     while lo < hi:
         mid = (lo + hi + 1) // 2
-        if exact_work(mid, c)[0] * 1.5 <= max_ops:
+        if _window_work(mid, c) <= max_ops:
             lo = mid
         else:
             hi = mid - 1
     return lo
+
+
+def _window_work(size: int, c: int) -> float:
+    """Exact DP work of one window of ``size`` keys: the w-key top adds at most half again."""
+    return exact_work(size, c)[0] * 1.5
 
 
 def _subtree_cost(node: _Node, weight) -> float:
