@@ -13,14 +13,28 @@ Lower level: ``Histogram`` (hit and gap weights), ``plan_capacity`` (one capacit
 ``AdvisorError`` and carries the CLI's exit code.
 """
 
-from .advise import Analysis, PageSettings, Request, analyse
-from .errors import AdvisorError, InputBusy, InputInvalid, InputNotFound, LayoutInvalid, OutputRefused, SettingInvalid
-from .export import read_layout, write_layout
-from .histogram import Histogram
-from .layout import Cost, Layout, check_layout, evaluate
-from .optimize import solve_exact
-from .planner import Plan, PlanOptions, plan_capacity
-from .workload import Workload, load_workload
+from importlib import import_module
+
+# Names load on first use (PEP 562), so that the console entry point can take over Ctrl-C
+# before numpy and DuckDB are imported.
+_HOME = {
+    "Analysis": "advise", "PageSettings": "advise", "Request": "advise", "analyse": "advise",
+    "AdvisorError": "errors", "InputBusy": "errors", "InputInvalid": "errors", "InputNotFound": "errors",
+    "LayoutInvalid": "errors", "OutputRefused": "errors", "SettingInvalid": "errors",
+    "read_layout": "export", "write_layout": "export", "Histogram": "histogram",
+    "Cost": "layout", "Layout": "layout", "check_layout": "layout", "evaluate": "layout",
+    "solve_exact": "optimize", "Plan": "planner", "PlanOptions": "planner", "plan_capacity": "planner",
+    "Workload": "workload", "load_workload": "workload",
+}
+
+
+def __getattr__(name: str):
+    if name in _HOME:
+        value = getattr(import_module(f".{_HOME[name]}", __name__), name)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module 'advisor' has no attribute {name!r}")
+
 
 __all__ = [
     "AdvisorError",

@@ -6,6 +6,8 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Callable
 
+import numpy as np
+
 from .errors import SettingInvalid
 from .geometry import (
     DEFAULT_CHILD_POINTER,
@@ -167,11 +169,12 @@ def analyse(wl: Workload, req: Request, on_plan: Callable[[int, str], None] | No
     if s.model == "bplus":
         for entry, p in zip(run["plans"], plans):
             layout, sizes, how = balanced_bplus_layout(wl.hist, p.uniform, req.pool_pages)
-            height = int(p.uniform.depths().max()) if p.uniform.pages else 0
+            depths = p.uniform.depths()[p.uniform.leaf] if p.uniform.pages else np.zeros(1, dtype=np.int64)
+            height, one_depth = int(depths.max()), bool(depths.min() == depths.max())
             rows = zip(sizes, pinned_misses(p.uniform, wl.hist, sizes), pinned_misses(layout, wl.hist, sizes))
             entry["balanced"] = cost_dict(evaluate(layout, wl.hist)) | {"method": how, "buffer_pool": [
                 {"pool_pages": b, "uniform_pinned": u, "balanced_pinned": m,
-                 "lower_bound": balanced_miss_bound(wl.hist, p.keys_per_page, p.fanout, height, b)}
+                 "lower_bound": balanced_miss_bound(wl.hist, p.keys_per_page, p.fanout, height, b, one_depth)}
                 for b, u, m in rows]}  # fmt: skip
     if req.scan_to:
         first, last, weight, points = load_scans(wl, req.scan_to)

@@ -17,7 +17,7 @@ import numpy as np
 from .bufferpool import pinned_misses, pool_sizes
 from .histogram import Histogram
 from .layout import Layout, LayoutBuilder, evaluate
-from .optimize.bplus import bplus_weights, hot_leaf_starts, leaves_to_tree
+from .optimize.bplus import bplus_level_bound, bplus_weights, hot_leaf_starts, leaves_to_tree
 
 
 def balanced_bplus_layout(hist: Histogram, uniform: Layout, pages: list[int] | None = None) -> tuple[Layout, list[int], str]:
@@ -141,11 +141,13 @@ def all_balanced(n: int, L: int, F: int, height: int, limit: int = ENUMERATION_L
     return out
 
 
-def balanced_miss_bound(hist: Histogram, L: int, F: int, height: int, pool: int) -> float:
-    """Lower bound on pinned misses per lookup of ANY B+-tree with every leaf at depth ``height``.
+def balanced_miss_bound(hist: Histogram, L: int, F: int, height: int, pool: int, one_depth: bool = True) -> float:
+    """Lower bound on pinned misses per lookup of ANY B+-tree of at most ``height`` levels.
 
-    Every lookup reads ``height`` pages, so misses = height - (traffic of the B cached pages) /
-    total. A page at depth d covers at most L F^(height-d) keys, so x cached pages at depth d
+    misses = reads - (traffic of the B cached pages) / total. With ``one_depth`` (every leaf at
+    depth ``height``, as in the balanced shape when the even split has one leaf depth) every
+    lookup reads exactly ``height`` pages; otherwise (fanout 2 can force mixed leaf depths) the
+    reads are bounded below by the level bound of :func:`bplus_level_bound`, valid for any tree. A page at depth d covers at most L F^(height-d) keys, so x cached pages at depth d
     carry at most min(total, weight of the x L F^(height-d) heaviest keys), at most F^(d-1)
     pages exist there; those caps are concave in x, so giving the B pages one by one to the
     depth with the largest gain maximises their sum, which bounds any real cache's traffic.
@@ -174,4 +176,5 @@ def balanced_miss_bound(hist: Histogram, L: int, F: int, height: int, pool: int)
             break
         taken[best_d] += 1
         cached += best_gain
-    return max(0.0, height - cached / total)
+    reads = float(height) if one_depth else min(float(height), bplus_level_bound(hist, L, F))
+    return max(0.0, reads - cached / total)

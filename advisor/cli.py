@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import io
 import json
-import os
 import sys
 import time
 from contextlib import contextmanager
@@ -21,8 +20,10 @@ import typer
 from rich.console import Console
 from rich.progress import BarColumn, Progress, SpinnerColumn, TextColumn, TimeElapsedColumn
 
+from . import interrupt
 from .advise import PageSettings, Request, analyse, export_paths
 from .demo import DEMO_KEY, DEMO_LOG, DEMO_TABLE, build_demo
+from .atomic import atomic_path
 from .errors import AdvisorError, OutputRefused, SettingInvalid
 from .export import check_destination, check_target, write_layout
 from .pagesize import PROFILES, StorageProfile
@@ -45,19 +46,27 @@ def _fail(message: str, code: int) -> None:
 def _guard():
     """One line and a distinct exit code for every failure; never a traceback."""
     try:
-        yield
+        with interrupt.armed():
+            yield
+        if interrupt.interrupted():  # a library swallowed the signal: still answer it
+            raise KeyboardInterrupt
     except AdvisorError as e:
         _fail(str(e), e.exit_code)
     except (KeyboardInterrupt, duckdb.InterruptException):
-        _fail("interrupted; no output file was left behind", 130)
+        _interrupted()
     except typer.Exit:
         raise
     except MemoryError:
         _fail("out of memory; try fewer page sizes or a smaller table", 1)
     except Exception as e:  # noqa: BLE001 - the promise is no traceback
         if "interrupted" in str(e).lower():  # DuckDB turns Ctrl-C inside a query into its own error
-            _fail("interrupted; no output file was left behind", 130)
+            _interrupted()
         _fail(f"internal error ({type(e).__name__}): {e}", 1)
+
+
+def _interrupted() -> None:
+    Console(stderr=True, highlight=False).print(interrupt.message(), markup=False, soft_wrap=True)
+    raise typer.Exit(130)
 
 
 def _progress(enabled: bool) -> Progress:
@@ -87,15 +96,11 @@ def save_pictures(run: dict, svg: Path | None, html: Path | None, replace: bool)
     for path, kind in ((svg, "svg"), (html, "html")):
         if path is None:
             continue
-        tmp = path.with_name(f".{path.name}.{os.getpid()}.partial")
-        try:
+        with atomic_path(path) as tmp:
             if kind == "svg":
                 console.save_svg(str(tmp), title="advisor report", clear=False)
             else:
                 console.save_html(str(tmp), clear=False)
-            os.replace(tmp, path)
-        finally:
-            tmp.unlink(missing_ok=True)
 
 
 def _run(database, table, key, log, request: Request, as_json, export, export_for, force, log_column=None,
@@ -110,11 +115,13 @@ def _run(database, table, key, log, request: Request, as_json, export, export_fo
             if not picture.parent.exists():
                 raise OutputRefused(f"directory {picture.parent} does not exist")
     t0 = time.perf_counter()
+    interrupt.checkpoint("read")
     with load_workload(database, table, key, log, log_column, count_column, distinct_keys, memory_limit) as wl:
         wl.info["database"] = str(database)
         t_hist = time.perf_counter() - t0
         with _progress(not as_json and sys.stderr.isatty()) as bar:
             task = bar.add_task("planning")
+            interrupt.checkpoint("plan")
             result = analyse(wl, request, lambda i, step: bar.update(task, description=f"plan {i + 1}: {step}"))
         run = result.run
         if export is not None:
@@ -222,7 +229,9 @@ def demo_cmd(
 
 
 def main() -> None:  # pragma: no cover - console script entry
-    app()
+    from .entry import main as entry_main
+
+    entry_main()
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -16,6 +16,8 @@ from pathlib import Path
 import duckdb
 import numpy as np
 
+from .atomic import atomic_path
+
 DEMO_TABLE = "packets"
 DEMO_KEY = "packet_no"
 DEMO_LOG = "desk_lookups"
@@ -56,8 +58,7 @@ def build_demo(
     looked_up = np.concatenate([looked_up, np.full(n_null, np.nan)])
     looked_up = looked_up[rng.permutation(looked_up.size)]
     shelf = rng.integers(1, 400, size=keys)
-    tmp = path.with_name(path.name + f".{os.getpid()}.partial")
-    try:
+    with atomic_path(path, output=False) as tmp:
         con = duckdb.connect(str(tmp))
         con.register("k_in", {"packet_no": packet_no.astype(np.int64), "shelf": shelf.astype(np.int64)})
         con.execute(f"CREATE TABLE {DEMO_TABLE} AS SELECT packet_no::BIGINT AS packet_no, shelf::INTEGER AS shelf FROM k_in").fetchall()
@@ -67,8 +68,4 @@ def build_demo(
             f"CASE WHEN isnan(v) THEN NULL ELSE v::BIGINT END AS packet_no FROM l_in ORDER BY seq"
         ).fetchall()
         con.close()
-        os.replace(tmp, path)
-    finally:
-        if tmp.exists():
-            tmp.unlink()
     return path

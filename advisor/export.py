@@ -16,6 +16,7 @@ from pathlib import Path
 import duckdb
 import numpy as np
 
+from .atomic import atomic_path
 from .errors import InputInvalid, OutputRefused
 from .layout import Layout, LayoutBuilder, check_layout
 from .workload import KEYS_TABLE, Workload, quote, run_sql, sql_string
@@ -84,27 +85,22 @@ def write_layout(wl: Workload, layout: Layout, path: str | os.PathLike, replace:
     check_target(path, replace)
     fmt = export_format(path)
     select = _stage(wl, layout)
-    tmp = path.with_name(f".{path.name}.{os.getpid()}.partial")
     try:
-        if fmt == "duckdb":
-            alias = "advisor_export_target"
-            run_sql(wl.con, f"ATTACH {sql_string(str(tmp))} AS {alias} (READ_WRITE)")
-            try:
-                run_sql(wl.con, f"CREATE TABLE {alias}.{EXPORT_TABLE} AS {select}")
-            finally:
-                run_sql(wl.con, f"DETACH {alias}")
-        else:
-            opts = {"csv": "FORMAT csv, HEADER true", "json": "FORMAT json, ARRAY true", "parquet": "FORMAT parquet"}[fmt]
-            run_sql(wl.con, f"COPY ({select}) TO {sql_string(str(tmp))} ({opts})")
-        os.replace(tmp, path)
+        with atomic_path(path) as tmp:
+            if fmt == "duckdb":
+                alias = "advisor_export_target"
+                run_sql(wl.con, f"ATTACH {sql_string(str(tmp))} AS {alias} (READ_WRITE)")
+                try:
+                    run_sql(wl.con, f"CREATE TABLE {alias}.{EXPORT_TABLE} AS {select}")
+                finally:
+                    run_sql(wl.con, f"DETACH {alias}")
+            else:
+                opts = {"csv": "FORMAT csv, HEADER true", "json": "FORMAT json, ARRAY true", "parquet": "FORMAT parquet"}[fmt]
+                run_sql(wl.con, f"COPY ({select}) TO {sql_string(str(tmp))} ({opts})")
     except duckdb.InterruptException:
         raise KeyboardInterrupt from None
     except duckdb.Error as e:
         raise OutputRefused(f"cannot write export {path}: {str(e).splitlines()[0]}") from None
-    finally:
-        for leftover in (tmp, tmp.with_name(tmp.name + ".wal")):
-            if leftover.exists():
-                leftover.unlink()
     return path
 
 

@@ -8,14 +8,13 @@ held-out robustness, and the table shows both.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 from .geometry import Geometry
 from .histogram import Histogram
 from .layout import evaluate
+from .planner import saving
 from .planner import PlanOptions, plan_capacity
-
-
-def _saving(uniform: float, advised: float) -> float:
-    return (uniform - advised) / uniform if uniform > 0 else 0.0
 
 
 def holdout_rows(train: Histogram, test: Histogram, targets: list[tuple[int, Geometry | None]],
@@ -24,14 +23,14 @@ def holdout_rows(train: Histogram, test: Histogram, targets: list[tuple[int, Geo
     rows = []
     for c, g in targets:
         for alpha in smoothings:
-            opts = PlanOptions(smoothing=alpha, model=base.model, fanout=base.fanout) if base else PlanOptions(smoothing=alpha)
+            opts = replace(base or PlanOptions(), smoothing=alpha)  # every other setting of the run kept
             plan = plan_capacity(train, c, g, opts)
             ins_u, ins_o = plan.uniform_cost.expected_page_reads, plan.recommended_cost.expected_page_reads
             out_u = evaluate(plan.uniform, test).expected_page_reads
             out_o = evaluate(plan.recommended, test).expected_page_reads
             rows.append({
                 "keys_per_page": c, "page_size": g.page_size if g else None, "smoothing": alpha, "model": opts.model,
-                "in_sample": {"uniform": ins_u, "optimized": ins_o, "saving": _saving(ins_u, ins_o)},
-                "held_out": {"uniform": out_u, "optimized": out_o, "saving": _saving(out_u, out_o)},
+                "in_sample": {"uniform": ins_u, "optimized": ins_o, "saving": saving(ins_u, ins_o)},
+                "held_out": {"uniform": out_u, "optimized": out_o, "saving": saving(out_u, out_o)},
             })  # fmt: skip
     return rows

@@ -52,6 +52,11 @@ PROOF_TOLERANCE = 1e-9
 POLISH_TOP = 2
 
 
+def saving(uniform: float, advised: float) -> float:
+    """Fraction of the even split's page reads a layout saves (0 when nothing is read)."""
+    return (uniform - advised) / uniform if uniform > 0 else 0.0
+
+
 @dataclass(frozen=True)
 class Plan:
     """Recommended and uniform layouts for one capacity, with their costs and a lower bound."""
@@ -81,8 +86,7 @@ class Plan:
     @property
     def saving(self) -> float:
         """Fraction of the uniform layout's page reads the recommendation saves."""
-        u = self.uniform_cost.expected_page_reads
-        return (u - self.recommended_cost.expected_page_reads) / u if u > 0 else 0.0
+        return saving(self.uniform_cost.expected_page_reads, self.recommended_cost.expected_page_reads)
 
     @property
     def gap(self) -> float:

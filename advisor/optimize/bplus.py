@@ -397,8 +397,12 @@ def _hot_children(rank: np.ndarray, lo: int, hi: int, F: int, cap: int) -> list[
         if len(kids) <= F or t == 0:
             break
         t = max(0, min(t - 1, t - (len(kids) - F + 1) // 2))
-    if len(kids) > F:  # no hot keys fit: the even cut of the range into F pieces
-        bounds = lo + (np.arange(F + 1) * size) // F
+    if len(kids) > F or len(kids) < 2:
+        # no hot keys fit, or the whole range fits one child: an internal page needs 2..F
+        # children, so cut the range evenly into as few pieces of at most ``cap`` keys as
+        # possible, at least two (the range is longer than a leaf, so it has at least two keys)
+        m = min(F, size, max(2, -(-size // cap)))
+        bounds = lo + (np.arange(m + 1) * size) // m
         kids = [(a, z) for a, z in zip(bounds[:-1].tolist(), bounds[1:].tolist()) if z > a]
     return kids
 
@@ -464,15 +468,19 @@ def bplus_window_bound(hist: Histogram, L: int, F: int, work_cap: float | None =
         M = best_disjoint_windows(w, L, passes)
     else:
         M = best_disjoint_windows(np.add.reduceat(w, np.arange(0, n, block)), -(-(L - 1) // block) + 1, passes)
+    # Sum over depths of the share not yet answered. The weights' own sum (not ``total``, which
+    # may differ from it in the last bits) is what "everything answered" means; once x L >= n
+    # every key can be answered, so the loop ends; stopping early only drops non-negative terms.
+    wsum = float(S[-1])
     cost, d = 2.0, 2  # the d = 0 term and the d = 1 term (a root with children answers nothing)
     while True:
         x = F ** (d - 1)
-        answered = min(total, float(cum_keys[min(n, x * L)]))
+        answered = min(wsum, float(cum_keys[min(n, x * L)]))
         if x < M.size:
             answered = min(answered, float(M[x]))
-        elif passes and M.size - 1 >= passes and M[-1] < total:
+        elif passes and M.size - 1 >= passes and M[-1] < wsum:
             answered = min(answered, float(M[-1]) + (x - (M.size - 1)) * heaviest_run)
-        if answered >= total * (1 - 1e-15):
+        if answered >= wsum * (1 - 1e-12) or d > min(n + 2, 900):
             return cost
-        cost += 1.0 - answered / total
+        cost += 1.0 - answered / wsum
         d += 1

@@ -1,0 +1,13 @@
+"""Console entry point: install the Ctrl-C handler first, then import the (heavy) CLI."""
+
+from __future__ import annotations
+
+
+def main() -> None:  # pragma: no cover - exercised through subprocess tests
+    from . import interrupt
+
+    interrupt.install()
+    interrupt.checkpoint("start")
+    from .cli import app
+
+    app()
