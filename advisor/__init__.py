@@ -36,6 +36,10 @@ def __getattr__(name: str):
     raise AttributeError(f"module 'advisor' has no attribute {name!r}")
 
 
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(_HOME))
+
+
 __all__ = [
     "AdvisorError",
     "Analysis",

@@ -1,0 +1,216 @@
+"""Exact optima under a height limit and a page budget (classic B-tree).
+
+Height: C_h(i, j), the cheapest tree of at most h levels on keys i+1..j, is a dimension of the
+recurrence, as for height-restricted optimal binary search trees (Garey, "Optimal binary search
+trees with restricted maximal depth", SIAM J. Computing 3, 1974):
+
+    C_1(i, j) = W(i, j) + lam            if 1 <= j - i <= c, else infinite
+    C_h(i, j) = W(i, j) + lam            if 1 <= j - i <= c
+              = W(i, j) + lam + G_{h-1}(i, j, c)   otherwise,
+
+where G_{h-1}(i, j, s) is the cheapest forest of s root keys over subtrees of at most h - 1
+levels (built from C_{h-1} along the same addition chain as :mod:`advisor.optimize.exact`).
+
+Pages: ``lam`` is a price per page (Lagrangian relaxation). The full-page lemma still holds
+with a height limit and lam >= 0: pulling a child's extreme key up into a non-full parent moves
+nothing deeper and never adds a page (checked against brute force in the tests). For each lam
+the DP gives the exact minimum of cost + lam x pages over trees of at most h levels, so:
+
+* a lam-optimal tree with P_lam pages is an exact optimum among trees of at most P_lam pages;
+* for any budget P, (min_T cost(T) + lam pages(T)) - lam P is a lower bound on the cost of every
+  tree within P pages (weak duality), the best lam giving the strongest bound.
+
+``solve_within`` bisects lam for the cheapest lam-optimal tree within the budget and reports the
+dual bound; the plan is proven optimal when that tree meets the bound.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..histogram import Histogram
+from ..layout import Layout, LayoutBuilder
+from .exact import _BLOCK, exact_work, forest_chain, length_limits, row_min_of_sums
+from .topdown import build_top_down
+from .uniform import min_height
+
+BISECTION_STEPS = 14
+
+
+@dataclass(frozen=True)
+class ConstrainedResult:
+    layout: Layout
+    expected_page_reads: float  # cost / total of the layout returned
+    dual_bound: float  # a lower bound on every layout within the budget (per lookup)
+    proven: bool  # layout meets the dual bound: an exact constrained optimum
+    evaluations: int  # DP runs spent
+
+
+def constrained_work(n: int, c: int, height: int) -> float:
+    """Element operations of one DP run (all levels) at n keys; the bisection runs several."""
+    return exact_work(n, c)[0] * max(1, height - 1)
+
+
+def constrained_bytes(n: int, c: int, height: int) -> float:
+    arrays = len(forest_chain(c)) + 2
+    return float(height * 2 * arrays * (n + 1) ** 2 * 8)
+
+
+class _Levels:
+    """C_h for h = 1..height and the forest tables of every level, for one price per page."""
+
+    def __init__(self, p: np.ndarray, q: np.ndarray, c: int, height: int, lam: float) -> None:
+        n = p.size
+        self.n, self.c = n, c
+        P = np.concatenate([[0.0], np.cumsum(p)])
+        Q = np.concatenate([[0.0], np.cumsum(q)])
+        W = np.full((n + 1, n + 1), np.inf)  # W[i, L] = weight of keys i+1..i+L and gaps i..i+L
+        for L in range(0, n + 1):
+            i = np.arange(n - L + 1)
+            W[i, L] = (P[i + L] - P[i]) + (Q[i + L + 1] - Q[i])
+        self.split = forest_chain(c)
+        self.levels: list[tuple[dict, dict]] = []  # per h >= 2: (start, end) forest tables over C_{h-1}
+        base = np.full((n + 1, n + 1), np.inf)
+        base[:, 0] = 0.0
+        short = np.arange(n + 1) <= c
+        base[:, short] = W[:, short] + lam
+        base[:, 0] = 0.0
+        self.C = [base]  # C[h - 1] = C_h as start-indexed [i, L]
+        for _h in range(2, height + 1):
+            start, end = self._forests(self.C[-1])
+            Ch = base.copy()
+            Ch[:, c + 1 :] = W[:, c + 1 :] + lam + start[c][:, c + 1 :]
+            self.levels.append((start, end))
+            self.C.append(Ch)
+
+    def _forests(self, C: np.ndarray) -> tuple[dict, dict]:
+        """Forest tables G(., ., s) over subtrees with costs C (start- and end-indexed)."""
+        n, c, split = self.n, self.c, self.split
+        longest = length_limits(split, (c,), n)
+        lefts = {a for a, _ in split.values()} | {0, c}
+        rights = {b for _, b in split.values()} | {0}
+        start = {s: np.full((n + 1, n + 1), np.inf) for s in lefts}
+        end = {s: np.full((n + 1, n + 1), np.inf) for s in rights}
+        start[0][:] = C
+        for L in range(0, n + 1):  # end[0][j, n - L] = C(j - L, j)
+            j = np.arange(L, n + 1)
+            end[0][j, n - L] = C[j - L, L]
+        buf = np.empty(min(_BLOCK, (n + 1) ** 2) + n + 1)
+        g = np.empty(n + 1)
+        order = sorted(split)
+        for L in range(1, n + 1):
+            m = n - L + 1
+            for s in order:
+                if s > L:
+                    break
+                if L > longest[s]:
+                    continue
+                a, b = split[s]
+                lo, hi = a, L - 1 - b
+                left = start[a][:m, lo : hi + 1]
+                right = end[b][L:, n - L + 1 + lo : n - L + 2 + hi]
+                row_min_of_sums(left, right, buf, g[:m])
+                if s in start:
+                    start[s][:m, L] = g[:m]
+                if s in end:
+                    end[s][L:, n - L] = g[:m]
+        return start, end
+
+    def value(self, height: int) -> float:
+        return float(self.C[height - 1][0, self.n])
+
+    def rebuild(self, height: int) -> Layout:
+        n, c = self.n, self.c
+
+        def roots(i: int, j: int, h: int) -> tuple[np.ndarray, int]:
+            start, end = self.levels[h - 2]
+            out: list[int] = []
+            self._forest_roots(start, end, i, j, c, out)
+            return np.asarray(out) - 1, h - 1
+
+        return build_top_down(n, c, roots, height)
+
+    def _forest_roots(self, start: dict, end: dict, i: int, j: int, s: int, out: list) -> None:
+        stack = [(i, j, s, False, 0)]
+        n = self.n
+        while stack:
+            i, j, s, emit, r = stack.pop()
+            if emit:
+                out.append(r)
+                continue
+            if s == 0:
+                continue
+            a, b = self.split[s]
+            L = j - i
+            lo, hi = a, L - 1 - b
+            left = start[a][i, lo : hi + 1]
+            right = end[b][j, n - L + 1 + lo : n - L + 2 + hi]
+            r = i + lo + int(np.argmin(left + right)) + 1
+            stack.append((r, j, b, False, 0))
+            stack.append((0, 0, 0, True, r))
+            stack.append((i, r - 1, a, False, 0))
+
+
+def _one_page(n: int, c: int) -> Layout:
+    b = LayoutBuilder(n, c)
+    if n:
+        b.add(np.arange(n))
+    return b.build()
+
+
+def solve_within(hist: Histogram, c: int, max_pages: int | None, max_height: int,
+                 steps: int = BISECTION_STEPS) -> ConstrainedResult:  # fmt: skip
+    """Best classic B-tree of at most ``max_height`` levels and ``max_pages`` pages found by the
+    price-per-page bisection, with the Lagrangian dual bound (see the module docstring)."""
+    n, total = hist.n, hist.total
+    if n <= c:
+        layout = _one_page(n, c)
+        reads = 1.0 if n and total > 0 else 0.0
+        return ConstrainedResult(layout, reads, reads, True, 0)
+    height = max_height
+    if height < min_height(n, c):
+        raise ValueError("height below the minimum: the caller checks this")
+    scale = total if total > 0 else 1.0
+    runs = 0
+
+    def solve(lam: float) -> tuple[Layout, float, float]:
+        nonlocal runs
+        runs += 1
+        levels = _Levels(hist.p, hist.q, c, height, lam)
+        layout = levels.rebuild(height)
+        obj = levels.value(height)
+        return layout, obj, obj - lam * layout.pages  # layout, cost + lam pages, cost
+
+    layout, obj, cost = solve(0.0)
+    if max_pages is None or layout.pages <= max_pages:
+        reads = cost / scale
+        return ConstrainedResult(layout, reads, reads, True, runs)
+    best_layout, best_cost = None, np.inf
+    dual = obj  # lam = 0: the height-limited optimum is a bound too
+    lo_lam, hi_lam = 0.0, scale * (height + 1) / max(1, n)
+    while True:  # raise the price until the cheapest tree fits
+        layout, obj, cost = solve(hi_lam)
+        dual = max(dual, obj - hi_lam * max_pages)
+        if layout.pages <= max_pages:
+            best_layout, best_cost = layout, cost
+            break
+        lo_lam, hi_lam = hi_lam, hi_lam * 4
+        if hi_lam > scale * (height + 1) * 4 ** 3:  # beyond any cost difference: min pages must come
+            raise AssertionError("no tree within the page budget: the caller checks the minimum")
+    for _ in range(steps):
+        mid = 0.5 * (lo_lam + hi_lam)
+        layout, obj, cost = solve(mid)
+        dual = max(dual, obj - mid * max_pages)
+        if layout.pages <= max_pages:
+            hi_lam = mid
+            if cost < best_cost:
+                best_layout, best_cost = layout, cost
+        else:
+            lo_lam = mid
+        if best_cost <= dual * (1 + 1e-12):
+            break
+    reads = best_cost / scale
+    bound = min(dual / scale, reads)
+    return ConstrainedResult(best_layout, reads, bound, best_cost <= dual * (1 + 1e-9) + 1e-12, runs)

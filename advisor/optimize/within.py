@@ -1,0 +1,246 @@
+"""Hot keys lifted toward the root without more pages or levels than a budget allows.
+
+Facts used (classic B-tree, capacity c; a tree of height h holds at most
+cap(h) = (c+1)^h - 1 keys, a multiple of c since (c+1)^h = 1 mod c):
+
+* N keys need at least ceil(N / c) pages, and ceil(N / c) pages suffice at any height h with
+  N <= cap(h): give the root c keys and the c + 1 runs below it sizes that are multiples of c
+  (at most cap(h-1) each) except one, and recurse. So a budget of B >= ceil(N/c) pages and
+  h >= the minimum height is always feasible, and every range below keeps that invariant.
+* A run of g keys hung below one root slot region and cut by e keys into e + 1 pieces of at
+  most cap(h-1) keys (e = ceil((g+1)/(cap(h-1)+1)) - 1 is the fewest) needs
+  ceil((g - e) / c) pages at best, reached when all pieces but one hold multiples of c keys.
+  Moving r more keys of it into the root, where r = (g - e) mod c, saves one more page.
+
+The construction, top-down: a range of N keys with height h and page budget B takes the
+hottest keys of the range into its root page one by one, keeping each only while the root can
+still be completed (cuts so every run fits in h - 1 levels, spare root slots spent on the runs
+closest to saving a page) within c keys and B pages. What is left of B after the root and the
+least each run needs is shared among the runs by their lookup weight, so hot subtrees can lift
+their own hot keys. O(n log n + pages c log c) in all.
+"""
+
+from __future__ import annotations
+
+import bisect
+from collections import deque
+
+import numpy as np
+
+from ..histogram import Histogram
+from ..layout import Layout, LayoutBuilder
+from .uniform import min_height
+
+
+def capacity_of(c: int, h: int) -> int:
+    """Most keys a classic B-tree of capacity c and height h holds."""
+    return (c + 1) ** h - 1 if h > 0 else 0
+
+
+def fewest_pages(n: int, c: int) -> int:
+    return -(-n // c)
+
+
+def _gap_plan(gaps: list[int], c: int, sub: int, room: int):
+    """Cuts per gap, keys moved up per gap, total root keys and pages below for given gaps.
+
+    ``sub`` = cap(h-1), ``room`` = root slots left after the chosen keys. Returns
+    (cuts, moved, keys_used, pages_below) or None when the cuts alone overflow the root."""
+    cuts = [-(-(g + 1) // (sub + 1)) - 1 if g > 0 else 0 for g in gaps]
+    spare = room - sum(cuts)
+    if spare < 0:
+        return None
+    left = [g - e for g, e in zip(gaps, cuts, strict=True)]
+    pages = sum(-(-x // c) for x in left)
+    moved = [0] * len(gaps)
+    # spare slots take the keys that save a page most cheaply: the remainder r = x mod c of a
+    # run (a whole page's c keys when the run is an exact multiple)
+    order = sorted((x % c or c, t) for t, x in enumerate(left) if x > 0)
+    for r, t in order:
+        if r > spare:
+            break
+        spare -= r
+        moved[t] = r
+        pages -= 1
+    return cuts, moved, room - spare, pages
+
+
+def _pieces(size: int, cuts: int, c: int, sub: int) -> list[int]:
+    """Sizes of the cuts + 1 pieces of ``size`` keys (the cut keys excluded): multiples of c but
+    one, each at most ``sub`` keys, spread evenly."""
+    k = cuts + 1
+    full, rest = divmod(size, c)
+    per = sub // c  # whole pages a piece may hold
+    pages = [full // k + (1 if t < full % k else 0) for t in range(k)]
+    out = [p * c for p in pages]
+    if rest:
+        # the remainder joins the piece with the fewest pages (there is room: size <= k * sub)
+        t = int(np.argmin(pages))
+        if pages[t] >= per:
+            raise AssertionError("no room for the remainder")  # excluded by size <= k * sub
+        out[t] += rest
+    return out
+
+
+def within_budget_layout(hist: Histogram, c: int, max_pages: int, max_height: int, tries: int = 2) -> Layout:
+    """A layout of at most ``max_pages`` pages and ``max_height`` levels that lifts hot keys.
+
+    Requires ``max_pages >= ceil(n / c)`` and ``max_height >= min_height(n, c)`` (always
+    enough, see the module docstring). ``tries`` x c of each range's hottest keys are offered
+    to its root page.
+    """
+    n = hist.n
+    b = LayoutBuilder(n, c)
+    if n == 0:
+        return b.build()
+    if max_pages < fewest_pages(n, c) or max_height < min_height(n, c):
+        raise ValueError("budget below the minimum: the caller checks this")
+    score = hist.p + 0.5 * (hist.q[:-1] + hist.q[1:])
+    cum = np.concatenate([[0.0], np.cumsum(score)])
+    todo = deque([(0, n, max_height, max_pages, -1, -1)])
+    while todo:
+        lo, hi, h, budget, parent, slot = todo.popleft()
+        if hi - lo <= c:
+            b.add(np.arange(lo, hi), parent, slot)
+            continue
+        keys, runs = _root_page(score, lo, hi, c, h, budget, tries)
+        page = b.add(np.asarray(keys, dtype=np.int64), parent, slot)
+        need = [fewest_pages(z - a, c) for a, z in runs]
+        slack = budget - 1 - sum(need)
+        share = _share(slack, [float(cum[z] - cum[a]) for a, z in runs], need)
+        edges = [lo - 1] + keys + [hi]
+        for t in range(len(keys) + 1):
+            a, z = edges[t] + 1, edges[t + 1]
+            if z > a:
+                todo.append((a, z, h - 1, need[t] + share[t], page, t))
+    return b.build()
+
+
+def _share(slack: int, weights: list[float], need: list[int]) -> list[int]:
+    """Spare pages for each child run, in proportion to its lookup weight (whole pages)."""
+    out = [0] * len(weights)
+    total = sum(w for w, k in zip(weights, need, strict=True) if k > 1)
+    if slack <= 0 or total <= 0:
+        return out
+    for t, (w, k) in enumerate(zip(weights, need, strict=True)):
+        if k > 1:  # a run of one page cannot use more
+            out[t] = int(slack * w / total)
+    left = slack - sum(out)
+    for t in sorted(range(len(weights)), key=lambda t: -weights[t]):
+        if left <= 0:
+            break
+        if need[t] > 1:
+            out[t] += 1
+            left -= 1
+    return out
+
+
+class _RootState:
+    """Running totals of a root page's gaps, so offering one more key costs O(c) numpy work
+    instead of a pass over every gap: cut count, pages below, and remainders by size."""
+
+    def __init__(self, size: int, c: int, sub: int) -> None:
+        self.c, self.sub = c, sub
+        self.gaps = [size]
+        self.cuts = self._cuts(size)
+        self.pages = self._pages(size)
+        self.count = np.zeros(c + 1, dtype=np.int64)  # count[r]: runs that save a page for r keys
+        self._tally(size, +1)
+
+    def _cuts(self, g: int) -> int:
+        return -(-(g + 1) // (self.sub + 1)) - 1 if g > 0 else 0
+
+    def _pages(self, g: int) -> int:
+        return -(-(g - self._cuts(g)) // self.c)
+
+    def _tally(self, g: int, sign: int, count: np.ndarray | None = None) -> None:
+        x = g - self._cuts(g)
+        if x > 0:
+            (self.count if count is None else count)[x % self.c or self.c] += sign
+
+    def pages_if(self, i: int, left: int, right: int, room: int) -> int | None:
+        """Pages below the root if gap i became gaps ``left`` and ``right`` with ``room`` root
+        slots left for cuts and moved keys; None when the cuts do not fit."""
+        g = self.gaps[i]
+        cuts = self.cuts - self._cuts(g) + self._cuts(left) + self._cuts(right)
+        spare = room - cuts
+        if spare < 0:
+            return None
+        pages = self.pages - self._pages(g) + self._pages(left) + self._pages(right)
+        count = self.count.copy()
+        self._tally(g, -1, count)
+        self._tally(left, +1, count)
+        self._tally(right, +1, count)
+        return pages - _pages_saved(count, spare)
+
+    def split(self, i: int, left: int, right: int) -> None:
+        g = self.gaps[i]
+        self.cuts += self._cuts(left) + self._cuts(right) - self._cuts(g)
+        self.pages += self._pages(left) + self._pages(right) - self._pages(g)
+        self._tally(g, -1)
+        self._tally(left, +1)
+        self._tally(right, +1)
+        self.gaps[i : i + 1] = [left, right]
+
+
+def _pages_saved(count: np.ndarray, spare: int) -> int:
+    """Most runs whose remainders fit in ``spare`` slots, smallest remainders first."""
+    r = np.arange(count.size)
+    cost = np.cumsum(r * count)
+    full = int(np.searchsorted(cost, spare, side="right"))  # buckets 0..full-1 taken whole
+    saved = int(count[:full].sum())
+    if full < count.size:
+        saved += min(int(count[full]), (spare - (int(cost[full - 1]) if full else 0)) // max(full, 1))
+    return saved
+
+
+def _root_page(score: np.ndarray, lo: int, hi: int, c: int, h: int, budget: int, tries: int):
+    """Root keys of range lo..hi-1 (ascending global ranks) and the child runs below them."""
+    sub = capacity_of(c, h - 1)
+    size = hi - lo
+    k = min(size, tries * c)
+    local = score[lo:hi]
+    top = np.argpartition(-local, k - 1)[:k] if k < size else np.arange(size)
+    top = top[np.argsort(-local[top], kind="stable")]
+    chosen: list[int] = []  # local ranks, ascending
+    state = _RootState(size, c, sub)
+    for x in top.tolist():
+        if len(chosen) >= c or local[x] <= 0:
+            break
+        i = bisect.bisect_left(chosen, x)
+        left_edge = chosen[i - 1] if i > 0 else -1
+        right_edge = chosen[i] if i < len(chosen) else size
+        left, right = x - left_edge - 1, right_edge - x - 1
+        pages = state.pages_if(i, left, right, c - len(chosen) - 1)
+        if pages is None or pages + 1 > budget:
+            continue
+        chosen.insert(i, x)
+        state.split(i, left, right)
+    gaps = state.gaps
+    plan = _gap_plan(gaps, c, sub, c - len(chosen))
+    if plan is None or plan[3] + 1 > budget:  # excluded by the invariant (module docstring)
+        raise AssertionError("range not completable within its budget")
+    cuts, moved, _used, _pages = plan
+    keys: list[int] = []
+    edges = [-1] + chosen + [size]
+    for t in range(len(gaps)):
+        a = edges[t] + 1  # first key of gap t
+        g = gaps[t]
+        # moved keys: the end of the run next to the hotter neighbour stays hot-adjacent; take
+        # them from the left end (next to the chosen key before it, or the range start)
+        up = list(range(a, a + moved[t]))
+        rest = g - moved[t]
+        pieces = _pieces(rest - cuts[t], cuts[t], c, sub) if rest > 0 else []
+        pos = a + moved[t]
+        cut_keys = []
+        for piece in pieces[:-1]:
+            pos += piece
+            cut_keys.append(pos)
+            pos += 1
+        keys += up + cut_keys
+        if t < len(chosen):
+            keys.append(chosen[t])
+    keys = [lo + x for x in keys]
+    bounds = [lo - 1] + keys + [hi]
+    runs = [(bounds[t] + 1, bounds[t + 1]) for t in range(len(keys) + 1)]
+    return keys, runs
