@@ -65,23 +65,6 @@ def _gap_plan(gaps: list[int], c: int, sub: int, room: int):
     return cuts, moved, room - spare, pages
 
 
-def _pieces(size: int, cuts: int, c: int, sub: int) -> list[int]:
-    """Sizes of the cuts + 1 pieces of ``size`` keys (the cut keys excluded): multiples of c but
-    one, each at most ``sub`` keys, spread evenly."""
-    k = cuts + 1
-    full, rest = divmod(size, c)
-    per = sub // c  # whole pages a piece may hold
-    pages = [full // k + (1 if t < full % k else 0) for t in range(k)]
-    out = [p * c for p in pages]
-    if rest:
-        # the remainder joins the piece with the fewest pages (there is room: size <= k * sub)
-        t = int(np.argmin(pages))
-        if pages[t] >= per:
-            raise AssertionError("no room for the remainder")  # excluded by size <= k * sub
-        out[t] += rest
-    return out
-
-
 def within_budget_layout(hist: Histogram, c: int, max_pages: int, max_height: int, tries: int = 2) -> Layout:
     """A layout of at most ``max_pages`` pages and ``max_height`` levels that lifts hot keys.
 
@@ -221,26 +204,44 @@ def _root_page(score: np.ndarray, lo: int, hi: int, c: int, h: int, budget: int,
     if plan is None or plan[3] + 1 > budget:  # excluded by the invariant (module docstring)
         raise AssertionError("range not completable within its budget")
     cuts, moved, _used, _pages = plan
+    lc = np.concatenate([[0.0], np.cumsum(local)])
     keys: list[int] = []
     edges = [-1] + chosen + [size]
     for t in range(len(gaps)):
-        a = edges[t] + 1  # first key of gap t
-        g = gaps[t]
-        # moved keys: the end of the run next to the hotter neighbour stays hot-adjacent; take
-        # them from the left end (next to the chosen key before it, or the range start)
-        up = list(range(a, a + moved[t]))
-        rest = g - moved[t]
-        pieces = _pieces(rest - cuts[t], cuts[t], c, sub) if rest > 0 else []
-        pos = a + moved[t]
-        cut_keys = []
-        for piece in pieces[:-1]:
-            pos += piece
-            cut_keys.append(pos)
-            pos += 1
-        keys += up + cut_keys
+        a, g, r = edges[t] + 1, gaps[t], moved[t]  # gap t is keys a..a+g-1
+        # keys moved up come from the end of the run with more lookup weight (either end lies
+        # next to a root key or the range's edge, so no new child run appears)
+        left_end = lc[a + r] - lc[a] >= lc[a + g] - lc[a + g - r] if r else True
+        up = list(range(a, a + r)) if left_end else list(range(a + g - r, a + g))
+        first = a + r if left_end else a
+        keys += up if left_end else []
+        keys += _cut_positions(lc, first, g - r, cuts[t], c, sub)
+        keys += [] if left_end else up
         if t < len(chosen):
             keys.append(chosen[t])
     keys = [lo + x for x in keys]
     bounds = [lo - 1] + keys + [hi]
     runs = [(bounds[t] + 1, bounds[t + 1]) for t in range(len(keys) + 1)]
     return keys, runs
+
+
+def _cut_positions(lc: np.ndarray, first: int, length: int, cuts: int, c: int, sub: int) -> list[int]:
+    """Where ``cuts`` keys split the run first..first+length-1 into pieces of at most ``sub``
+    keys, every piece but the last a multiple of c (so the pieces need the fewest pages), each
+    taking about an equal share of the run's remaining lookup weight: hot stretches end in small
+    pieces (shallow subtrees), cold ones in large ones."""
+    out: list[int] = []
+    pos, keys_left, per = first, length - cuts, sub // c
+    end = first + length
+    for t in range(cuts):
+        pieces_left = cuts + 1 - t
+        m_lo = max(0, -(-(keys_left - (pieces_left - 1) * sub) // c))
+        m_hi = min(per, keys_left // c)
+        goal = lc[pos] + (lc[end] - lc[pos]) / pieces_left
+        want = int(np.searchsorted(lc, goal, side="left")) - pos  # keys to reach the share
+        m = min(max(int(round(want / c)), m_lo), m_hi)
+        pos += m * c
+        out.append(pos)
+        pos += 1
+        keys_left -= m * c
+    return out
