@@ -8,6 +8,7 @@ from typing import Callable
 
 import numpy as np
 
+from .budget import BudgetSpec
 from .errors import SettingInvalid
 from .geometry import (
     DEFAULT_CHILD_POINTER,
@@ -118,6 +119,7 @@ class Request:
     storage: StorageProfile | None = None
     pool_bytes: int | None = None
     exact_seconds: float = 5.0  # run the exact DP when its estimated time is within this
+    budget: BudgetSpec = field(default_factory=BudgetSpec)  # page and height limits per plan
 
 
 @dataclass
@@ -155,7 +157,7 @@ def analyse(wl: Workload, req: Request, on_plan: Callable[[int, str], None] | No
         targets = [(c, replace(g, separator_bytes=truncated_separator_bytes(wl, c)) if g else g) for c, g in targets]
     unique = list({(c, g.page_size if g else None): (c, g) for c, g in targets}.values())
     options = PlanOptions(smoothing=req.smoothing, model=s.model, fanout=req.fanout or 0,
-                          exact_seconds=req.exact_seconds)  # fmt: skip
+                          exact_seconds=req.exact_seconds, budget=req.budget)  # fmt: skip
     plans = advise(wl.hist, unique, options, on_plan)
     replay = load_replay(wl, req.order_column, req.replay_limit) if req.order_column else None
     pools = [pool_figures(p.uniform, p.recommended, wl.hist, replay, req.pool_pages) for p in plans]

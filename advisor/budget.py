@@ -96,7 +96,7 @@ def _height_rule(text: str) -> tuple[str, int]:
     raise SettingInvalid(f"--max-height must be even, even+K, none, or a number of levels; got {text!r}")
 
 
-def resolve(spec: BudgetSpec, even: Layout, min_pages: int, min_height: int) -> Budget:
+def resolve(spec: BudgetSpec, even: Layout, min_pages: int, min_height: int, pages_note: str = "") -> Budget:
     """The limits for one plan, given its even split and the fewest pages / levels any layout of
     that capacity needs. An impossible limit is a :class:`SettingInvalid` (exit code 5)."""
     even_pages = even.pages
@@ -113,7 +113,8 @@ def resolve(spec: BudgetSpec, even: Layout, min_pages: int, min_height: int) -> 
     hkind, extra = _height_rule(spec.height)
     height = None if hkind == "none" else (even_height + extra if hkind == "even" else extra)
     if pages is not None and pages < min_pages:
-        raise SettingInvalid(f"--max-pages {spec.pages} allows {pages} pages; this index needs at least {min_pages}")
+        need = pages_note or f"this index needs at least {min_pages}"
+        raise SettingInvalid(f"--max-pages {spec.pages} allows {pages} pages; {need}")
     if height is not None and height < min_height:
         raise SettingInvalid(f"--max-height {spec.height} allows {height} levels; this index needs at least {min_height}")
     return Budget(pages, height)

@@ -24,6 +24,7 @@ from . import interrupt
 from .advise import PageSettings, Request, analyse, export_paths
 from .demo import DEMO_KEY, DEMO_LOG, DEMO_TABLE, build_demo
 from .atomic import atomic_path
+from .budget import BudgetSpec
 from .errors import AdvisorError, OutputRefused, SettingInvalid
 from .export import check_destination, check_target, write_layout
 from .pagesize import PROFILES, StorageProfile
@@ -86,6 +87,8 @@ ExportOpt = Annotated[Optional[Path], typer.Option("--export", help="Write the r
 ExportForOpt = Annotated[Optional[int], typer.Option("--export-for", help="Export only the plan for this page size (or keys per page).")]
 ForceOpt = Annotated[bool, typer.Option("--force", help="Replace an existing export or picture file.")]
 SvgOpt = Annotated[Optional[Path], typer.Option("--svg", help="Also save the whole report as an SVG picture.")]
+MaxPagesOpt = Annotated[str, typer.Option("--max-pages", help="Most pages a layout may use: even (the even split's count), a ratio such as 1.25x, a page count, or none.")]
+MaxHeightOpt = Annotated[str, typer.Option("--max-height", help="Most levels a layout may have: even, even+K, a number, or none.")]
 HtmlOpt = Annotated[Optional[Path], typer.Option("--html", help="Also save the whole report as an HTML page.")]
 
 
@@ -186,6 +189,8 @@ def plan_cmd(
     truncate_separators: Annotated[bool, typer.Option("--truncate-separators", help="bplus, string keys: shorten separators to the shortest prefix that still separates two leaves.")] = False,
     exact_seconds: Annotated[float, typer.Option("--exact-seconds", help="Run the exact optimiser when it should finish within this many seconds per page size.", min=0.0)] = 5.0,
     memory_limit: Annotated[Optional[str], typer.Option("--memory-limit", help="Cap DuckDB's memory while reading the log, e.g. 2GB (it spills to disk beyond).")] = None,
+    max_pages: MaxPagesOpt = "even",
+    max_height: MaxHeightOpt = "even",
 ) -> None:
     """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
     with _guard():
@@ -196,7 +201,8 @@ def plan_cmd(
         settings = PageSettings(list(page_size or []), list(keys_per_page or []), page_header, record_pointer,
                                 child_pointer, key_bytes, model, fill_factor)  # fmt: skip
         request = Request(settings, smoothing, fanout, truncate_separators, list(pool_pages or []) or None, order_column,
-                          replay_limit, holdout, scan_to, parse_storage(storage), pool_bytes, exact_seconds)  # fmt: skip
+                          replay_limit, holdout, scan_to, parse_storage(storage), pool_bytes, exact_seconds,
+                          BudgetSpec(max_pages, max_height))  # fmt: skip
         _run(database, table, key, log, request, as_json, export, export_for, force, log_column, count_column,
              distinct_keys, memory_limit, svg, html)  # fmt: skip
 
@@ -215,6 +221,8 @@ def demo_cmd(
     svg: SvgOpt = None,
     html: HtmlOpt = None,
     model: Annotated[str, typer.Option("--model", help="Index structure: btree, bplus or both.")] = "btree",
+    max_pages: MaxPagesOpt = "even",
+    max_height: MaxHeightOpt = "even",
 ) -> None:
     """Build the invented demo catalogue (once per seed) and print the full report on it."""
     with _guard():
@@ -224,7 +232,7 @@ def demo_cmd(
         if model != "btree" and keys_per_page:
             raise SettingInvalid("the demo's B+-tree plans take page sizes, not --keys-per-page")
         settings = PageSettings(list(page_size or []), list(keys_per_page or []), model=model)
-        request = Request(settings, order_column="lookup_seq", replay_limit=300_000)
+        request = Request(settings, order_column="lookup_seq", replay_limit=300_000, budget=BudgetSpec(max_pages, max_height))
         _run(db, DEMO_TABLE, DEMO_KEY, DEMO_LOG, request, as_json, export, None, force, svg=svg, html=html)
 
 

@@ -124,14 +124,19 @@ def _depths(parent: np.ndarray) -> np.ndarray:
     return depth
 
 
-def check_layout(layout: Layout) -> None:
-    """Raise :class:`LayoutInvalid` unless ``layout`` is a valid search tree over its keys.
+def check_layout(layout: Layout, budget=None) -> None:
+    """Raise :class:`LayoutInvalid` unless ``layout`` is a valid search tree over its keys and,
+    with ``budget`` (an :class:`advisor.budget.Budget`), within its page and height limits.
 
     Checks: every key rank 0..n-1 on exactly one page; 1..capacity keys per page, ascending;
     page 0 is the only root and parents precede children; each child slot is used at most once
     and lies within its parent's key count; every subtree's keys fall strictly between the two
     parent keys around its slot. Together these make the in-order walk the sorted key order.
     """
+    if budget is not None:
+        why = budget.violation(layout)
+        if why:
+            raise LayoutInvalid(f"layout outside its budget: {why}")
     n, c, P = layout.n_keys, layout.capacity, layout.pages
     if layout.structure not in STRUCTURES:
         raise LayoutInvalid(f"unknown structure {layout.structure!r}")

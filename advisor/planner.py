@@ -8,17 +8,25 @@ the baseline). Every figure comes from :func:`advisor.layout.evaluate`.
 from __future__ import annotations
 
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Callable
 
 from .geometry import Geometry
 from .histogram import Histogram
+from .budget import Budget, BudgetSpec, resolve
 from .layout import Cost, Layout, check_layout, evaluate
 from .errors import SettingInvalid
 from .optimize import balanced_layout, exact_seconds, exact_work, heaviest_first_layout, integer_weights, hot_first_layout, lower_bounds, polish, solve_exact, uniform_layout
+from .optimize.bplus_constrained import bplus_constrained_work, solve_bplus_within
+from .optimize.bplus_within import bplus_within_layout, hot_leaf_candidates
+from .optimize.constrained import constrained_bytes, constrained_work, solve_within
+from .optimize.exact import FLOAT_OPS_PER_SECOND
 from .optimize.recut import recut
+from .optimize.refine import EVALUATIONS, polish_within
+from .optimize.uniform import min_height
+from .optimize.within import fewest_pages, within_budget_layout
 from .optimize.bplus import (
-    balanced_bplus, bplus_chain, bplus_level_bound, bplus_window_bound, bplus_work, full_leaves_balanced, full_leaves_exact, hot_first_bplus,
+    balanced_bplus, bplus_chain, bplus_height, bplus_level_bound, bplus_window_bound, bplus_work, full_leaves_balanced, full_leaves_exact, hot_first_bplus,
     leaf_count,
     solve_bplus_exact, uniform_bplus,
 )  # fmt: skip
@@ -26,6 +34,8 @@ from .optimize.bplus import (
 OPS_PER_SECOND = 3e8  # element operations of the float64 B+ DP per second, measured on this machine kind
 EXACT_SECONDS = 5.0  # run the exact DP when it should take about 5 s or less
 EXACT_MAX_BYTES = 2.0e9
+BPLUS_WITHIN_OPS_PER_SECOND = 1e8  # the budgeted B+ DP (plain numpy), measured: 300 keys, F = 8, ~0.25 s a run
+BPLUS_WITHIN_MAX_KEYS = 1500  # its tables are (n + 1)^2 per forest size and level
 
 
 def near_candidates(hist: Histogram, c: int, model: str = "btree", fanout: int = 0, opts=None):
@@ -74,6 +84,7 @@ class Plan:
     dp_objective: float | None = None
     model: str = "btree"
     fanout: int = 0
+    budget: Budget = Budget(None, None)
 
     @property
     def page_size(self) -> int | None:
@@ -105,6 +116,7 @@ class PlanOptions:
     model: str = "btree"  # or "bplus" (keys only in leaves, variable depth)
     fanout: int = 0  # bplus with a direct capacity: children per internal page
     check: bool = True
+    budget: BudgetSpec = field(default_factory=BudgetSpec)  # default: the even split's pages and height
 
 
 def plan_capacity(
@@ -114,7 +126,8 @@ def plan_capacity(
     options: PlanOptions | None = None,
     on_step: Callable[[str], None] | None = None,
 ) -> Plan:
-    """Plan one capacity ``c``: exact when affordable, else near-optimal with a bound."""
+    """Plan one capacity ``c``: exact when affordable, else near-optimal with a bound; every
+    layout returned keeps within the budget of ``options.budget``."""
     opts = options or PlanOptions()
     step = on_step or (lambda _s: None)
     fit = hist.smoothed(opts.smoothing)  # the weights the layout is fitted to
@@ -123,63 +136,29 @@ def plan_capacity(
     F = (geometry.fanout if geometry else opts.fanout) if bplus else 0
     if bplus and F < 2:
         raise SettingInvalid("a B+-tree plan needs a fanout of at least 2 (give --fanout with --keys-per-page)")
-    if bplus:
-        uni = uniform_bplus(hist.n, c, F)
-        seconds = bplus_work(hist.n, F) / OPS_PER_SECOND if hist.n > c else 0.0
-        mem = (2 * len(bplus_chain(F)) + 4) * (hist.n + 1) ** 2 * 8.0 if hist.n > c else 0.0
-        solve = lambda h: solve_bplus_exact(h, c, F)  # noqa: E731
-    else:
-        uni = uniform_layout(hist.n, c)
-        integer = integer_weights(fit, c)
-        seconds, mem = exact_seconds(hist.n, c, integer), exact_work(hist.n, c, integer)[1]
-        solve = lambda h: solve_exact(h, c)  # noqa: E731
+    uni = uniform_bplus(hist.n, c, F) if bplus else uniform_layout(hist.n, c)
+    budget = plan_budget(opts.budget, uni, hist.n, c, F)
     uni_cost = evaluate(uni, hist)
-    dp_objective = None
+    dual = None
     if hist.total <= 0:
         # nothing is looked up: every layout costs 0, so keep the layout the loader would build
-        best, best_cost, method, proven = uni, uni_cost, "no lookups: even split kept", True
-    elif seconds <= opts.exact_seconds and mem <= opts.exact_max_bytes:
-        step("exact")
-        res = solve(fit)
-        best, method, proven = res.layout, "exact DP", opts.smoothing <= 0
-        dp_objective = res.objective if opts.smoothing <= 0 else None
-        best_cost = evaluate(best, hist)
-        if opts.smoothing > 0:
-            method += f" on smoothed weights (alpha {opts.smoothing:g})"
+        best, method, proven, dp_objective = uni, "no lookups: even split kept", True, None
+    elif budget.max_pages is None and budget.max_height is None:
+        best, method, proven, dp_objective = _unlimited(fit, c, F, uni, opts, step)
     else:
-        ranked = [(evaluate(uni, fit).expected_page_reads, "even split (nothing better found)", uni)]
-        for name, build in near_candidates(fit, c, opts.model, F, opts):
-            step(name)
-            cand = build()
-            ranked.append((evaluate(cand, fit).expected_page_reads, name, cand))
-        ranked.sort(key=lambda x: x[0])
-        best_value, method, best = ranked[0]
-        if opts.polish_ops > 0:
-            # the best before re-solving small subtrees need not be the best after: try the top two
-            for value, name, cand in ranked[:POLISH_TOP]:
-                if cand is uni:
-                    continue
-                step(f"exact re-solve of small subtrees ({name})")
-                polished = polish(cand, fit, opts.polish_ops / POLISH_TOP)
-                v = evaluate(polished, fit).expected_page_reads
-                if v < best_value:
-                    best_value, method, best = v, name + " + exact small subtrees", polished
-        if opts.recut_ops > 0 and not bplus and best is not uni:
-            step("exact re-cuts of page keys")
-            cut = recut(best, fit, opts.recut_ops)
-            v = evaluate(cut, fit).expected_page_reads
-            if v < best_value:
-                best_value, method, best = v, method + " + exact re-cuts", cut
-        best_cost = evaluate(best, hist)
-        proven = False
+        best, method, proven, dual = _within(fit, c, F, uni, budget, opts, step)
+        dp_objective = None
+    best_cost = evaluate(best, hist)
     if opts.check:
-        check_layout(best)
+        check_layout(best, budget)
         check_layout(uni)
     step("bounds")
     if bplus:
         bounds = {"level_capacity": bplus_level_bound(hist, c, F), "leaf_runs": bplus_window_bound(hist, c, F)}
     else:
         bounds = lower_bounds(hist, c)
+    if dual is not None and opts.smoothing <= 0:
+        bounds["within_budget"] = min(dual, best_cost.expected_page_reads)
     lb = max(bounds.values())
     if not proven and best_cost.expected_page_reads <= lb * (1 + PROOF_TOLERANCE):
         proven, method = True, method + ", meets the lower bound"
@@ -197,4 +176,121 @@ def plan_capacity(
         dp_objective=dp_objective,
         model=opts.model,
         fanout=F,
+        budget=budget,
     )
+
+
+def plan_budget(spec: BudgetSpec, uni: Layout, n: int, c: int, F: int) -> Budget:
+    """The plan's limits: ``spec`` against the even split and the least any layout needs."""
+    if n == 0:
+        return Budget(None, None)
+    if uni.structure == "bplus":
+        # fewer pages than the even split's full leaves under packed pages is not built here
+        note = f"B+-tree plans keep at least the even split's {uni.pages} pages (fewer is not built)"
+        return resolve(spec, uni, uni.pages, bplus_height(n, c, F), note)
+    return resolve(spec, uni, fewest_pages(n, c), min_height(n, c))
+
+
+def _unlimited(fit: Histogram, c: int, F: int, uni: Layout, opts: PlanOptions, step):
+    """No budget: the unconstrained optimum, exact when affordable (the behaviour before budgets)."""
+    bplus = uni.structure == "bplus"
+    if bplus:
+        seconds = bplus_work(fit.n, F) / OPS_PER_SECOND if fit.n > c else 0.0
+        mem = (2 * len(bplus_chain(F)) + 4) * (fit.n + 1) ** 2 * 8.0 if fit.n > c else 0.0
+    else:
+        integer = integer_weights(fit, c)
+        seconds, mem = exact_seconds(fit.n, c, integer), exact_work(fit.n, c, integer)[1]
+    if seconds <= opts.exact_seconds and mem <= opts.exact_max_bytes:
+        step("exact")
+        res = solve_bplus_exact(fit, c, F) if bplus else solve_exact(fit, c)
+        method = "exact DP" + (f" on smoothed weights (alpha {opts.smoothing:g})" if opts.smoothing > 0 else "")
+        return res.layout, method, opts.smoothing <= 0, (res.objective if opts.smoothing <= 0 else None)
+    ranked = [(evaluate(uni, fit).expected_page_reads, "even split (nothing better found)", uni)]
+    for name, build in near_candidates(fit, c, opts.model, F, opts):
+        step(name)
+        cand = build()
+        ranked.append((evaluate(cand, fit).expected_page_reads, name, cand))
+    ranked.sort(key=lambda x: x[0])
+    best_value, method, best = ranked[0]
+    if opts.polish_ops > 0:
+        # the best before re-solving small subtrees need not be the best after: try the top two
+        for _value, name, cand in ranked[:POLISH_TOP]:
+            if cand is uni:
+                continue
+            step(f"exact re-solve of small subtrees ({name})")
+            polished = polish(cand, fit, opts.polish_ops / POLISH_TOP)
+            v = evaluate(polished, fit).expected_page_reads
+            if v < best_value:
+                best_value, method, best = v, name + " + exact small subtrees", polished
+    if opts.recut_ops > 0 and not bplus and best is not uni:
+        step("exact re-cuts of page keys")
+        cut = recut(best, fit, opts.recut_ops)
+        v = evaluate(cut, fit).expected_page_reads
+        if v < best_value:
+            best_value, method, best = v, method + " + exact re-cuts", cut
+    return best, method, False, None
+
+
+def _within(fit: Histogram, c: int, F: int, uni: Layout, budget: Budget, opts: PlanOptions, step):
+    """Best layout found within the budget: (layout, method, proven, dual bound or None)."""
+    n, bplus = fit.n, uni.structure == "bplus"
+    if not bplus:
+        height = budget.max_height if budget.max_height is not None else min(n, budget.max_pages or n)
+        seconds = constrained_work(n, c, height) * EVALUATIONS / FLOAT_OPS_PER_SECOND
+        if seconds <= opts.exact_seconds and constrained_bytes(n, c, height) <= opts.exact_max_bytes:
+            step("exact within the budget")
+            res = solve_within(fit, c, budget.max_pages, height)
+            proven = res.proven and opts.smoothing <= 0
+            method = "exact DP within the budget" if proven else "exact DP with a price per page (best point found)"
+            return res.layout, method, proven, res.dual_bound
+    else:
+        height = budget.max_height if budget.max_height is not None else min(n, budget.max_pages or n)
+        seconds = bplus_constrained_work(n, F, height) * EVALUATIONS / BPLUS_WITHIN_OPS_PER_SECOND
+        if n <= BPLUS_WITHIN_MAX_KEYS and seconds <= opts.exact_seconds:
+            step("exact within the budget")
+            res = solve_bplus_within(fit, c, F, budget.max_pages, height)
+            proven = res.proven and opts.smoothing <= 0
+            method = "exact DP within the budget" if proven else "exact DP with a price per page (best point found)"
+            return res.layout, method, proven, res.dual_bound
+    ranked = [(evaluate(uni, fit).expected_page_reads, "even split (nothing better found)", uni)]
+    for name, build in budget_candidates(fit, c, F, uni, budget, opts):
+        step(name)
+        cand = build()
+        if budget.allows(cand):
+            ranked.append((evaluate(cand, fit).expected_page_reads, name, cand))
+    ranked.sort(key=lambda x: x[0])
+    best_value, method, best = ranked[0]
+    if opts.polish_ops > 0 and not bplus:
+        for _value, name, cand in ranked[:POLISH_TOP]:
+            if cand is uni:
+                continue
+            step(f"exact re-solve of subtrees within the budget ({name})")
+            polished = polish_within(cand, fit, budget.max_pages, budget.max_height, opts.polish_ops / POLISH_TOP)
+            v = evaluate(polished, fit).expected_page_reads
+            if v < best_value and budget.allows(polished):
+                best_value, method, best = v, name + " + exact subtrees", polished
+    return best, method, False, None
+
+
+def budget_candidates(fit: Histogram, c: int, F: int, uni: Layout, budget: Budget, opts: PlanOptions):
+    """(name, builder) of the constructions tried within a budget; every result is checked
+    against the budget before it is ranked."""
+    n = fit.n
+    if uni.structure == "btree":
+        even_height = int(uni.depths().max())
+        top = budget.max_height if budget.max_height is not None else even_height + 1
+        pages = budget.max_pages if budget.max_pages is not None else n
+        for h in sorted({top, max(min_height(n, c), top - 1)}, reverse=True):
+            for tries in (1, 2, 4):
+                yield (f"hot keys lifted within the budget ({h} levels, {tries}c offered)",
+                       lambda h=h, tries=tries: within_budget_layout(fit, c, pages, h, tries))  # fmt: skip
+    else:
+        even_height = int(uni.depths().max())
+        top = budget.max_height if budget.max_height is not None else even_height + 1
+        pages = budget.max_pages if budget.max_pages is not None else 2 * uni.pages
+        for starts in hot_leaf_candidates(fit, c, F, pages):
+            label = "full leaves" if starts.size == leaf_count(n, c) else f"{starts.size:,} leaves, hot runs apart"
+            for h in sorted({top, max(bplus_height(n, c, F), top - 1)}, reverse=True):
+                yield (f"hot leaves near the root within the budget ({label}, {h} levels)",
+                       lambda s=starts, h=h: bplus_within_layout(fit, c, F, pages, h, s) or uni)  # fmt: skip
+    yield from near_candidates(fit, c, opts.model, F, opts)

@@ -96,3 +96,64 @@ def test_full_page_lemma_holds_with_a_page_price():
             for lam in (0.0, 0.5, 3.0, 50.0):
                 truth = min(v + lam * pg for (pg, ht), v in front.items() if ht <= height)
                 assert _Levels(p, q, c, height, lam).value(height) == pytest.approx(truth, rel=1e-12)
+
+
+def bplus_frontier(w, L, F):
+    """{(pages, height): least sum of w x leaf depth} over EVERY B+-tree (a range is a leaf of
+    at most L keys, or an internal page over 2..F consecutive parts); independent code."""
+    n = len(w)
+
+    @lru_cache(maxsize=None)
+    def trees(lo, hi):
+        lam = float(sum(w[lo:hi]))
+        out = {(1, 1): lam} if hi - lo <= L else {}
+
+        @lru_cache(maxsize=None)
+        def parts(a, k):  # a..hi-1 as exactly k parts: {(pages, height): cost}
+            if k == 1:
+                return trees(a, hi)
+            acc: dict = {}
+            for r in range(a + 1, hi - k + 2):
+                for (p1, h1), c1 in trees(a, r).items():
+                    for (p2, h2), c2 in parts(r, k - 1).items():
+                        key = (p1 + p2, max(h1, h2))
+                        acc[key] = min(acc.get(key, np.inf), c1 + c2)
+            return acc
+
+        for k in range(2, min(F, hi - lo) + 1):
+            for (pg, ht), cost in parts(lo, k).items():
+                key = (pg + 1, ht + 1)
+                out[key] = min(out.get(key, np.inf), cost + lam)
+        return out
+
+    return trees(0, n)
+
+
+@settings(max_examples=60, deadline=None)
+@given(data=st.data(), L=st.integers(1, 3), F=st.integers(2, 4))
+def test_bplus_constrained_exact_equals_brute_force(data, L, F):
+    from advisor.optimize.bplus import bplus_height, bplus_weights, uniform_bplus
+    from advisor.optimize.bplus_constrained import solve_bplus_within
+
+    n = data.draw(st.integers(1, 7))
+    p = np.array(data.draw(st.lists(st.integers(0, 30), min_size=n, max_size=n)), float)
+    q = np.array(data.draw(st.lists(st.integers(0, 10), min_size=n + 1, max_size=n + 1)), float)
+    if p.sum() + q.sum() == 0:
+        p[0] = 1
+    hist = Histogram(p, q)
+    w = bplus_weights(hist)
+    front = bplus_frontier(tuple(w), L, F)
+    hmin = bplus_height(n, L, F)
+    even = uniform_bplus(n, L, F).pages
+    for height in (hmin, hmin + 1, hmin + 3):
+        for pages in sorted({even, even + 1, 2 * n}):
+            res = solve_bplus_within(hist, L, F, pages, height)
+            check_layout(res.layout)
+            assert res.layout.pages <= pages and res.layout.depths().max() <= height
+            truth = best_within(front, pages, height) / hist.total
+            got = evaluate(res.layout, hist).expected_page_reads
+            assert got == pytest.approx(res.expected_page_reads, rel=1e-9)
+            assert res.dual_bound <= truth + 1e-9
+            assert got >= truth - 1e-9
+            if res.proven:
+                assert got == pytest.approx(truth, rel=1e-9, abs=1e-12)

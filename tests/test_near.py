@@ -12,7 +12,11 @@ from advisor.histogram import Histogram
 from advisor.layout import check_layout, evaluate
 from advisor.optimize import balanced_layout, heaviest_first_layout, lower_bounds, solve_exact, uniform_layout
 from advisor.optimize.recut import recut
+from advisor.budget import BudgetSpec
 from advisor.planner import PlanOptions, plan_capacity
+
+
+NO_LIMIT = BudgetSpec("none", "none")  # the unconstrained optimum, as before budgets
 
 from .conftest import random_hist, replay_cost
 
@@ -52,10 +56,24 @@ def test_planner_without_exact_is_between_bound_and_uniform(s, clustered):
 def test_near_optimal_close_to_exact_where_both_run(c):
     hist = _zipf_hist(250, 1.0, c)
     exact = solve_exact(hist, c).objective
-    near = plan_capacity(hist, c, options=PlanOptions(exact_seconds=0)).recommended_cost.expected_page_reads
+    near = plan_capacity(hist, c, options=PlanOptions(exact_seconds=0, budget=NO_LIMIT)).recommended_cost.expected_page_reads
     assert exact <= near + 1e-12
     # recorded, not a promise: the weight-balanced path stays within 15% here
     assert near <= exact * 1.15
+
+
+@pytest.mark.parametrize("c", [3, 12, 40])
+def test_near_optimal_within_budget_close_to_the_exact_constrained_optimum(c):
+    from advisor.optimize.constrained import solve_within
+
+    hist = _zipf_hist(250, 1.0, c)
+    plan = plan_capacity(hist, c, options=PlanOptions(exact_seconds=0))
+    even = plan.uniform
+    exact = solve_within(hist, c, even.pages, int(even.depths().max()))
+    near = plan.recommended_cost.expected_page_reads
+    assert exact.dual_bound <= near + 1e-12 and plan.recommended.pages <= even.pages
+    # recorded, not a promise: within 10% of the best exact point at the even split's size
+    assert near <= exact.expected_page_reads * 1.10
 
 
 def test_flat_weights_never_worse_than_uniform():

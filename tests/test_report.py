@@ -11,7 +11,8 @@ from typer.testing import CliRunner
 from advisor.bufferpool import pool_figures
 from advisor.cli import app
 from advisor.histogram import Histogram
-from advisor.planner import plan_capacity
+from advisor.budget import BudgetSpec
+from advisor.planner import PlanOptions, plan_capacity
 from advisor.report import BAR_WIDTH, render_run
 from advisor.serialize import run_dict
 
@@ -26,7 +27,7 @@ def _run():
     p = np.zeros(50)
     p[7] = 100.0  # one key takes all traffic: advised puts it at the root
     hist = Histogram(p, np.zeros(51))
-    plan = plan_capacity(hist, 2)
+    plan = plan_capacity(hist, 2, options=PlanOptions(budget=BudgetSpec("none", "none")))
     return run_dict(hist, [plan], {"database": "x"}, [], [pool_figures(plan.uniform, plan.recommended, hist, None, [1, 2])])
 
 
