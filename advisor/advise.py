@@ -10,6 +10,7 @@ import numpy as np
 
 from .budget import BudgetSpec
 from .errors import SettingInvalid
+from .frontier import frontier
 from .geometry import (
     DEFAULT_CHILD_POINTER,
     DEFAULT_PAGE_HEADER,
@@ -120,6 +121,7 @@ class Request:
     pool_bytes: int | None = None
     exact_seconds: float = 5.0  # run the exact DP when its estimated time is within this
     budget: BudgetSpec = field(default_factory=BudgetSpec)  # page and height limits per plan
+    frontier: bool = True  # also plan at 1.1x .. 2x and no page limit (the reads-space frontier)
 
 
 @dataclass
@@ -168,13 +170,18 @@ def analyse(wl: Workload, req: Request, on_plan: Callable[[int, str], None] | No
         "replayed_lookups": int(replay.outcomes.size) if replay is not None else None,
     }  # fmt: skip
     run = run_dict(wl.hist, plans, inputs, [], pools)
+    if req.frontier:
+        for idx, (entry, p) in enumerate(zip(run["plans"], plans, strict=True)):
+            if on_plan:
+                on_plan(idx, "reads-space frontier")
+            entry["frontier"] = frontier(p, wl.hist, options)
     if s.model == "bplus":
         for entry, p in zip(run["plans"], plans):
             layout, sizes, how = balanced_bplus_layout(wl.hist, p.uniform, req.pool_pages)
             depths = p.uniform.depths()[p.uniform.leaf] if p.uniform.pages else np.zeros(1, dtype=np.int64)
             height, one_depth = int(depths.max()), bool(depths.min() == depths.max())
             rows = zip(sizes, pinned_misses(p.uniform, wl.hist, sizes), pinned_misses(layout, wl.hist, sizes))
-            entry["balanced"] = cost_dict(evaluate(layout, wl.hist)) | {"method": how, "buffer_pool": [
+            entry["balanced"] = cost_dict(evaluate(layout, wl.hist), layout, p.page_size) | {"method": how, "buffer_pool": [
                 {"pool_pages": b, "uniform_pinned": u, "balanced_pinned": m,
                  "lower_bound": balanced_miss_bound(wl.hist, p.keys_per_page, p.fanout, height, b, one_depth)}
                 for b, u, m in rows]}  # fmt: skip

@@ -249,6 +249,9 @@ class Cost:
     answered_at_depth: np.ndarray  # share of looked-up weight answered at depth 1, 2, ...
     key_depth: np.ndarray  # (n,) pages read by a hit on each key
     gap_depth: np.ndarray  # (n + 1,) pages read by a miss in each gap
+    p99_page_reads: int = 0  # reads of the 99th-percentile lookup (weighted by the histogram)
+    max_page_reads: int = 0  # most reads of any lookup the histogram gives weight
+    max_page_reads_any: int = 0  # most reads of any key or gap at all (looked up or not)
 
 
 def evaluate(layout: Layout, hist: Histogram) -> Cost:
@@ -276,7 +279,31 @@ def evaluate(layout: Layout, hist: Histogram) -> Cost:
         shares = by_depth[1:] / total
     else:
         reads, shares = 0.0, np.zeros(height)
-    return Cost(reads, layout.pages, height, shares, key_depth, gap_depth)
+    p99, worst = _tail(shares)
+    worst_any = int(max(key_depth.max(), gap_depth.max()))
+    return Cost(reads, layout.pages, height, shares, key_depth, gap_depth, p99, worst, worst_any)
+
+
+def _tail(shares: np.ndarray) -> tuple[int, int]:
+    """(99th-percentile, largest) page reads of a lookup, from the share answered at each depth."""
+    if shares.size == 0 or shares.sum() <= 0:
+        return 0, 0
+    cum = np.cumsum(shares) / shares.sum()
+    p99 = int(np.searchsorted(cum, 0.99 - 1e-12) + 1)
+    return p99, int(np.nonzero(shares > 0)[0].max() + 1)
+
+
+def mean_fill(layout: Layout) -> float:
+    """Share of the pages' entry slots in use: keys over pages x c for a classic B-tree; for a
+    B+-tree keys over leaves x L and separators over internal pages x (F - 1), pooled."""
+    if layout.pages == 0:
+        return 0.0
+    sizes = layout.page_sizes()
+    if layout.structure == "bplus":
+        leaves = int(layout.leaf.sum())
+        slots = leaves * layout.capacity + (layout.pages - leaves) * max(1, layout.fanout - 1)
+        return float(sizes.sum() / slots)
+    return float(sizes.sum() / (layout.pages * layout.capacity))
 
 
 def end_pages(layout: Layout) -> tuple[np.ndarray, np.ndarray]:

@@ -57,50 +57,125 @@ def traffic_panel(run: dict) -> Panel:
     return Panel(t, title="Traffic profile", title_align="left")
 
 
+def _pair(even: float, advised: float, fmt: str) -> tuple[str, str]:
+    """Both figures of a comparison, the better one (fewer reads or misses) in bold; a tie bolds
+    neither, so bold never marks a layout that loses."""
+    e, a = format(even, fmt), format(advised, fmt)
+    if advised < even - 1e-12:
+        return e, f"[bold]{a}[/bold]"
+    if even < advised - 1e-12:
+        return f"[bold]{e}[/bold]", a
+    return e, a
+
+
+def _size(nbytes) -> str:
+    if nbytes is None:
+        return "-"
+    for unit, scale in (("T", 2**40), ("G", 2**30), ("M", 2**20), ("K", 2**10)):
+        if nbytes >= scale:
+            v = nbytes / scale
+            return f"{v:,.0f}{unit}" if v >= 100 else f"{v:.1f}{unit}"
+    return f"{nbytes:,}B"
+
+
 def plans_table(run: dict) -> Table:
     models = {p.get("model") for p in run["plans"]}
     what = {frozenset({"bplus"}): "B+-tree, c = keys per leaf", frozenset({"btree"}): "c = keys per page"}.get(
         frozenset(models), "c = keys per page; c B+ = keys per leaf of a B+-tree")
     t = Table(title=f"Page reads per lookup: even split vs advised layout ({what})", title_justify="left")
-    for name in ("page bytes", "c", "even split", "advised", "saved", "lower bound", "gap", "optimum"):
-        t.add_column(name, justify="left" if name == "optimum" else "right")
+    for name in ("page bytes", "c", "even split", "advised", "saved", "lower bound", "gap", "optimal"):
+        t.add_column(name, justify="left" if name == "optimal" else "right")
     for p in run["plans"]:
         o, u = p["optimized"], p["uniform"]
+        even, advised = _pair(u["expected_page_reads"], o["expected_page_reads"], ".3f")
         t.add_row(
             f"{p['page_size']:,}" if p["page_size"] else "-",
             _c(p),
-            f"{u['expected_page_reads']:.3f}",
-            f"[bold]{o['expected_page_reads']:.3f}[/bold]",
+            even,
+            advised,
             _pct(p["saving"]),
             f"{p['lower_bound']:.3f}",
             _pct(p["certified_gap"]),
-            "proven" if p["proven_optimal"] else "no proof",
+            "proven" if p["proven_optimal"] else "bounded",
         )
-    t.caption = "gap = (recommended - lower bound) / lower bound: the most the recommendation can be above optimal"
+    t.caption = ("gap = (advised - lower bound) / lower bound: the advised layout is at most this far above the best "
+                 "layout within the budget. optimal: proven, or bounded (no proof of optimality; the gap bounds it)")  # fmt: skip
     t.caption_justify = "left"
     return t
+
+
+def size_table(run: dict) -> Table:
+    """What each layout costs on disk and in the worst case, beside the budget it was held to."""
+    t = Table(title="Size and worst case, even split → advised", title_justify="left")
+    for name in ("c", "pages", "≤ pages", "size", "fill", "levels", "p99", "worst"):
+        t.add_column(name, justify="right", no_wrap=True)
+    for p in run["plans"]:
+        o, u, b = p["optimized"], p["uniform"], p.get("budget") or {}
+        t.add_row(
+            _c(p),
+            f"{u['pages']:,}→{o['pages']:,}",
+            "any" if b.get("max_pages") is None else f"{b['max_pages']:,}",
+            f"{_size(u.get('bytes'))}→{_size(o.get('bytes'))}" if u.get("bytes") else "-",
+            f"{100 * u.get('mean_fill', 0):.0f}→{100 * o.get('mean_fill', 0):.0f}%",
+            f"{u['height']}→{o['height']} ≤" + ("any" if b.get("max_height") is None else str(b["max_height"])),
+            f"{u['p99_page_reads']}→{o['p99_page_reads']}",
+            f"{u['max_page_reads']}→{o['max_page_reads']}",
+        )
+    t.caption = ("≤: the budget the advised layout was held to (--max-pages, --max-height; default: "
+                 "the even split's own). size: K/M/G = 2^10/2^20/2^30 bytes. p99, worst: page reads of the 99th-"
+                 "percentile and of the costliest lookup")  # fmt: skip
+    t.caption_justify = "left"
+    return t
+
+
+def frontier_table(run: dict) -> Table | None:
+    """Reads against space: the same plan at growing page budgets."""
+    plans = [p for p in run["plans"] if p.get("frontier")]
+    if not plans:
+        return None
+    t = Table(title="What more space buys: the advised layout at growing page budgets (same height limit)",
+              title_justify="left")  # fmt: skip
+    for name in ("c", "≤ pages", "pages", "size", "reads", "saved", "worst", "bound", ""):
+        t.add_column(name, justify="left" if name == "" else "right", no_wrap=True)
+    for p in plans:
+        rows = p["frontier"]
+        even_reads = p["uniform"]["expected_page_reads"]
+        for i, r in enumerate(rows):
+            label = r["max_pages_rule"]
+            t.add_row(_c(p) if i == 0 else "", label, f"{r['pages']:,}", _size(r.get("bytes")),
+                      f"{r['expected_page_reads']:.3f}", _pct(r["saving"]), str(r["max_page_reads"]),
+                      f"{r['lower_bound']:.3f}", _bar(r["expected_page_reads"], even_reads, "cyan", FRONTIER_BAR),
+                      end_section=i == len(rows) - 1)  # fmt: skip
+    t.caption = ("≤ pages: even = the even split's page count, 1.1x = 10% more, none = no page limit; the height "
+                 "limit stays. bar: reads per lookup, the even split's a full bar. bound: proven lower bound")  # fmt: skip
+    t.caption_justify = "left"
+    return t
+
+
+DEPTH_COLUMNS = 6  # depths shown one by one; deeper ones are summed into one "7+" column
 
 
 def depth_table(run: dict) -> Table:
     """Share of lookups answered at each depth, even split vs recommended, per plan."""
     depth = max((max(len(p["optimized"]["answered_at_depth"]), len(p["uniform"]["answered_at_depth"]))
                  for p in run["plans"]), default=0)  # fmt: skip
-    t = Table(title="Tree shape and where lookups end (share answered at each depth), even → recommended", title_justify="left")
-    t.add_column("keys/page", justify="right")
-    t.add_column("pages", justify="right")
-    t.add_column("height", justify="right")
-    for d in range(1, depth + 1):
+    shown = min(depth, DEPTH_COLUMNS)
+    t = Table(title="Where lookups end: share answered at each depth, even split → advised", title_justify="left")
+    t.add_column("c", justify="right")
+    for d in range(1, shown + 1):
         t.add_column(f"depth {d}", justify="right")
+    if depth > DEPTH_COLUMNS:
+        t.add_column(f"{DEPTH_COLUMNS + 1}+", justify="right")
     for p in run["plans"]:
         o, u = p["optimized"]["answered_at_depth"], p["uniform"]["answered_at_depth"]
         cells = []
-        for d in range(depth):
+        for d in range(shown):
             a = u[d] if d < len(u) else 0.0
             b = o[d] if d < len(o) else 0.0
             cells.append(f"{_pct(a)}→{_pct(b)}")
-        pages = f"{p['uniform']['pages']:,}→{p['optimized']['pages']:,}"
-        height = f"{p['uniform']['height']}→{p['optimized']['height']}"
-        t.add_row(_c(p), pages, height, *cells)
+        if depth > DEPTH_COLUMNS:
+            cells.append(f"{_pct(sum(u[DEPTH_COLUMNS:]))}→{_pct(sum(o[DEPTH_COLUMNS:]))}")
+        t.add_row(_c(p), *cells)
     return t
 
 
@@ -115,9 +190,9 @@ def pool_table(run: dict) -> Table | None:
     for p in run["plans"]:
         for i, row in enumerate(p["buffer_pool"]):
             cells = [_c(p) if i == 0 else "", f"{row['pool_pages']:,}", _pct(row["share_of_index"]),
-                     f"{row['uniform_pinned']:.3f}", f"[bold]{row['optimized_pinned']:.3f}[/bold]"]  # fmt: skip
+                     *_pair(row["uniform_pinned"], row["optimized_pinned"], ".3f")]  # fmt: skip
             if lru:
-                cells += [f"{row['uniform_lru']:.3f}", f"[bold]{row['optimized_lru']:.3f}[/bold]"]
+                cells += [*_pair(row["uniform_lru"], row["optimized_lru"], ".3f")]
             t.add_row(*cells, end_section=i == len(p["buffer_pool"]) - 1)
     t.caption = "% of index: pool size as a share of the even split's pages; LRU: the log replayed in order, cold start"
     t.caption_justify = "left"
@@ -156,8 +231,8 @@ def balanced_table(run: dict) -> Table | None:
     for p in (p for p in run["plans"] if "balanced" in p):
         bal = p["balanced"]
         for i, r in enumerate(bal["buffer_pool"]):
-            t.add_row(_c(p) if i == 0 else "", f"{r['pool_pages']:,}", f"{r['uniform_pinned']:.3f}",
-                      f"[bold]{r['balanced_pinned']:.3f}[/bold]", f"{r['lower_bound']:.3f}", bal["method"] if i == 0 else "",
+            t.add_row(_c(p) if i == 0 else "", f"{r['pool_pages']:,}", *_pair(r["uniform_pinned"], r["balanced_pinned"], ".3f"),
+                      f"{r['lower_bound']:.3f}", bal["method"] if i == 0 else "",
                       end_section=i == len(bal["buffer_pool"]) - 1)  # fmt: skip
     t.caption = ("every lookup reads the full height in both; only the cache benefits. Exact for tiny indexes, "
                  "else near-optimal; lower bound: no balanced tree of this height can miss less")  # fmt: skip
@@ -176,9 +251,8 @@ def scans_table(run: dict) -> Table | None:
     for p in run["plans"]:
         s = p["range_scans"]
         u, o = s["uniform"], s["optimized"]
-        t.add_row(_c(p), f"{u['point_lookup_reads']:.3f}", f"[bold]{o['point_lookup_reads']:.3f}[/bold]",
-                  f"{u['scan_pages']:.2f}", f"[bold]{o['scan_pages']:.2f}[/bold]", f"{u['combined']:.3f}",
-                  f"[bold]{o['combined']:.3f}[/bold]")  # fmt: skip
+        t.add_row(_c(p), *_pair(u["point_lookup_reads"], o["point_lookup_reads"], ".3f"),
+                  *_pair(u["scan_pages"], o["scan_pages"], ".2f"), *_pair(u["combined"], o["combined"], ".3f"))
     t.caption = ("A scan reads every page holding a key in its range and every ancestor of those pages, each once. "
                  "The optimiser counts each scan's first probe as a lookup; it does not pack ranges into fewer pages.")  # fmt: skip
     t.caption_justify = "left"
@@ -203,13 +277,14 @@ def holdout_table(run: dict) -> Table | None:
 
 
 BAR_WIDTH = 16
+FRONTIER_BAR = 10
 
 
-def _bar(value: float, top: float, style: str) -> Text:
-    """A horizontal bar of block characters, value scaled to ``top`` over BAR_WIDTH cells."""
-    cells = 0.0 if top <= 0 else BAR_WIDTH * value / top
+def _bar(value: float, top: float, style: str, width: int = BAR_WIDTH) -> Text:
+    """A horizontal bar of block characters, value scaled to ``top`` over ``width`` cells."""
+    cells = 0.0 if top <= 0 else width * min(value, top) / top
     full = int(cells)
-    part = " ▏▎▍▌▋▊▉"[int((cells - full) * 8)] if full < BAR_WIDTH else ""
+    part = " ▏▎▍▌▋▊▉"[int((cells - full) * 8)] if full < width else ""
     return Text("█" * full + part.strip(), style=style)
 
 
@@ -217,7 +292,8 @@ def charts(run: dict) -> Table | None:
     """Bars: share of lookups answered at each depth, and misses per lookup against pool size."""
     if not run["plans"]:
         return None
-    t = Table(title="Pictures: share answered at each depth; page misses per lookup by pool size (pinned)", title_justify="left", show_lines=False)
+    t = Table(title="Bars: share answered at each depth; page misses per lookup by pool size (pinned)",
+              title_justify="left", show_lines=False)
     t.add_column("c", justify="right")
     t.add_column("depth / pool pages", justify="left", no_wrap=True)
     t.add_column("even split", justify="left", no_wrap=True)
@@ -239,6 +315,15 @@ def charts(run: dict) -> Table | None:
     return t
 
 
+BOUND_NAMES = {
+    "entropy": "entropy",
+    "level_capacity": "keys per level",
+    "root_runs": "hot keys side by side",
+    "leaf_runs": "leaves as key runs",
+    "within_budget": "price per page (within the budget)",
+}
+
+
 def method_notes(run: dict) -> Text:
     lines = []
     for p in run["plans"]:
@@ -248,7 +333,7 @@ def method_notes(run: dict) -> Text:
         else:
             cap = f"keys/page = {g and _formula(g) or str(p['keys_per_page']) + ' (given)'}"
         lines.append(f"c={p['keys_per_page']}: {cap}; method: {p['optimized']['method']}; "
-                     f"bounds: " + ", ".join(f"{k} {v:.3f}" for k, v in p["lower_bounds"].items()))  # fmt: skip
+                     f"bounds: " + ", ".join(f"{BOUND_NAMES.get(k, k)} {v:.3f}" for k, v in p["lower_bounds"].items()))  # fmt: skip
     if any(p.get("model") == "bplus" for p in run["plans"]):
         lines.append("Cost model (B+-tree, leaves at any depth): every lookup reads the pages from the root to the leaf "
                      "covering it; a value between two leaves goes to the left one.")  # fmt: skip
@@ -289,9 +374,9 @@ def render_run(run: dict) -> Group:
         parts.append(Text("The log holds no lookups of non-NULL values: nothing to optimise; "
                           "the even split is shown as is.", style="yellow"))  # fmt: skip
     if run["plans"]:
-        parts += [plans_table(run), depth_table(run)]
+        parts += [plans_table(run), size_table(run), depth_table(run)]
         # optional sections: each returns None when the run holds none of its figures
-        for section in (pool_table, balanced_table, scans_table, holdout_table, page_size_panel, charts):
+        for section in (frontier_table, pool_table, balanced_table, scans_table, holdout_table, page_size_panel, charts):
             table = section(run)
             if table is not None:
                 parts.append(table)

@@ -9,19 +9,27 @@ Guaranteed fields: ``keys``, ``lookups``, ``hits``, ``misses`` and ``plans``, ea
 from __future__ import annotations
 
 from .histogram import Histogram
-from .layout import Cost
+from .layout import Cost, Layout, mean_fill
 from .planner import Plan
 
 SCHEMA_VERSION = 1
 
 
-def cost_dict(cost: Cost) -> dict:
-    return {
+def cost_dict(cost: Cost, layout: Layout | None = None, page_size: int | None = None) -> dict:
+    """One layout's figures: reads, size (pages, bytes, fill) and tail (p99 and worst reads)."""
+    out = {
         "expected_page_reads": float(cost.expected_page_reads),
         "pages": int(cost.pages),
         "height": int(cost.height),
         "answered_at_depth": [float(x) for x in cost.answered_at_depth],
+        "bytes": int(cost.pages) * int(page_size) if page_size else None,
+        "p99_page_reads": int(cost.p99_page_reads),
+        "max_page_reads": int(cost.max_page_reads),
+        "max_page_reads_any_key": int(cost.max_page_reads_any),
     }
+    if layout is not None:
+        out["mean_fill"] = mean_fill(layout)
+    return out
 
 
 def plan_dict(plan: Plan) -> dict:
@@ -31,8 +39,9 @@ def plan_dict(plan: Plan) -> dict:
         "model": plan.model,
         "fanout": int(plan.fanout) if plan.model == "bplus" else None,
         "geometry": plan.geometry.as_dict() if plan.geometry else None,
-        "optimized": cost_dict(plan.recommended_cost) | {"method": plan.method},
-        "uniform": cost_dict(plan.uniform_cost),
+        "optimized": cost_dict(plan.recommended_cost, plan.recommended, plan.page_size) | {"method": plan.method},
+        "uniform": cost_dict(plan.uniform_cost, plan.uniform, plan.page_size),
+        "budget": plan.budget.as_dict(),
         "saving": float(plan.saving),
         "lower_bound": float(plan.lower_bound),
         "lower_bounds": {k: float(v) for k, v in plan.bounds.items()},
@@ -42,6 +51,12 @@ def plan_dict(plan: Plan) -> dict:
     }
 
 
+def _count(x: float) -> int | float:
+    """Whole lookup counts as integers in the JSON (weights may be fractional with --count-column)."""
+    x = float(x)
+    return int(x) if x.is_integer() and abs(x) < 2**63 else x
+
+
 def run_dict(hist: Histogram, plans: list[Plan], inputs: dict, exports: list[str] | None = None,
              pools: list[list[dict]] | None = None) -> dict:  # fmt: skip
     s = hist.summary()
@@ -49,10 +64,10 @@ def run_dict(hist: Histogram, plans: list[Plan], inputs: dict, exports: list[str
         "schema_version": SCHEMA_VERSION,
         "inputs": inputs,
         "keys": int(s["keys"]),
-        "lookups": float(s["lookups"]),
-        "hits": float(s["hits"]),
-        "misses": float(s["misses"]),
-        "null_lookups": float(s["null_lookups"]),
+        "lookups": _count(s["lookups"]),
+        "hits": _count(s["hits"]),
+        "misses": _count(s["misses"]),
+        "null_lookups": _count(s["null_lookups"]),
         "histogram": {k: v for k, v in s.items() if k not in ("keys", "lookups", "hits", "misses", "null_lookups")},
         "plans": [plan_dict(p) | ({"buffer_pool": pools[i]} if pools else {}) for i, p in enumerate(plans)],
         "exports": exports or [],

@@ -35,12 +35,13 @@ def test_chart_bars_have_the_right_length():
     run = _run()
     text = _render(run)
     assert run["plans"][0]["optimized"]["answered_at_depth"][0] == 1.0
-    line = next(l for l in text.splitlines() if "depth 1 " in l)
+    bars = text[text.index("Bars:"):]
+    line = next(l for l in bars.splitlines() if "depth 1 " in l)
     cells = [c for c in line.split("│") if c.strip()]
     even, advised = cells[-2], cells[-1]
     assert "█" * BAR_WIDTH in advised and "100.0%" in advised  # everything answered at the root
     assert "█" not in even  # the even split answers nothing at its root here
-    for section in ("Traffic profile", "Page reads per lookup", "Buffer pool", "Pictures", "copy"):
+    for section in ("Traffic profile", "Page reads per lookup", "Size and worst case", "Buffer pool", "Bars", "copy"):
         assert section in text
 
 

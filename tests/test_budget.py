@@ -1,0 +1,161 @@
+"""Page and height budgets: every returned layout keeps them; bad or impossible ones are refused."""
+
+from __future__ import annotations
+
+import json
+
+import duckdb
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from typer.testing import CliRunner
+
+from advisor.budget import Budget, BudgetSpec, resolve
+from advisor.cli import app
+from advisor.errors import LayoutInvalid, SettingInvalid
+from advisor.frontier import check_monotone, frontier
+from advisor.histogram import Histogram
+from advisor.layout import check_layout
+from advisor.optimize import uniform_layout
+from advisor.optimize.bplus import uniform_bplus
+from advisor.planner import PlanOptions, plan_capacity
+
+runner = CliRunner()
+
+
+def _hist(rng, n, skew):
+    w = 1.0 / np.arange(1, n + 1) ** skew
+    w = w[rng.permutation(n)]
+    q = np.zeros(n + 1)
+    q[rng.integers(0, n + 1, max(1, n // 20))] = 3.0
+    return Histogram(np.round(w * 1000), q)
+
+
+def _height(layout):
+    return int(layout.depths().max())
+
+
+@settings(max_examples=60, deadline=None)
+@given(seed=st.integers(0, 10_000), n=st.integers(1, 1500), c=st.integers(1, 40), skew=st.floats(0.0, 1.6),
+       model=st.sampled_from(["btree", "bplus"]), exact=st.sampled_from([0.0, 5.0]))  # fmt: skip
+def test_default_run_never_exceeds_the_even_split(seed, n, c, skew, model, exact):
+    rng = np.random.default_rng(seed)
+    hist = _hist(rng, n, skew)
+    F = int(rng.integers(2, 12))
+    plan = plan_capacity(hist, c, options=PlanOptions(model=model, fanout=F, exact_seconds=exact))
+    check_layout(plan.recommended, plan.budget)
+    assert plan.recommended.pages <= plan.uniform.pages
+    assert _height(plan.recommended) <= _height(plan.uniform)
+    assert plan.recommended_cost.expected_page_reads <= plan.uniform_cost.expected_page_reads + 1e-12
+    assert plan.lower_bound <= plan.recommended_cost.expected_page_reads + 1e-9
+
+
+@pytest.mark.parametrize("pages, height", [("1.25x", "even"), ("even", "even+1"), ("2x", "none"), ("none", "even")])
+@pytest.mark.parametrize("model", ["btree", "bplus"])
+def test_other_budgets_hold(pages, height, model):
+    rng = np.random.default_rng(3)
+    hist = _hist(rng, 3000, 1.0)
+    plan = plan_capacity(hist, 8, options=PlanOptions(model=model, fanout=6, budget=BudgetSpec(pages, height)))
+    check_layout(plan.recommended, plan.budget)
+    even = plan.uniform
+    if pages.endswith("x"):
+        assert plan.budget.max_pages == int(even.pages * float(pages[:-1]))
+    if height == "even+1":
+        assert plan.budget.max_height == _height(even) + 1
+
+
+def test_page_count_below_the_even_split_is_met_for_classic_trees():
+    rng = np.random.default_rng(4)
+    hist = _hist(rng, 2000, 1.0)
+    even = uniform_layout(2000, 7)
+    fewest = -(-2000 // 7)
+    assert fewest < even.pages
+    plan = plan_capacity(hist, 7, options=PlanOptions(exact_seconds=0, budget=BudgetSpec(str(fewest), "even")))
+    assert plan.recommended.pages <= fewest
+
+
+def test_budget_check_rejects_a_layout_outside_it():
+    even = uniform_layout(100, 3)
+    with pytest.raises(LayoutInvalid, match="pages"):
+        check_layout(even, Budget(even.pages - 1, None))
+    with pytest.raises(LayoutInvalid, match="levels"):
+        check_layout(even, Budget(None, _height(even) - 1))
+    check_layout(even, Budget(even.pages, _height(even)))
+
+
+@pytest.mark.parametrize("pages, height", [("0.5x", "even"), ("lots", "even"), ("even", "even-1"), ("even", "0"), ("-3", "even")])
+def test_bad_specs_are_refused(pages, height):
+    with pytest.raises(SettingInvalid):
+        BudgetSpec(pages, height)
+
+
+def test_impossible_budgets_are_refused():
+    even = uniform_layout(100, 3)  # 100 keys, 3 per page: at least 34 pages and 4 levels
+    with pytest.raises(SettingInvalid, match="at least 34"):
+        resolve(BudgetSpec("33", "even"), even, 34, 4)
+    with pytest.raises(SettingInvalid, match="at least 4"):
+        resolve(BudgetSpec("even", "3"), even, 34, 4)
+    assert resolve(BudgetSpec("34", "4"), even, 34, 4) == Budget(34, 4)
+    bplus = uniform_bplus(100, 3, 4)
+    assert resolve(BudgetSpec("none", "none"), bplus, bplus.pages, 4) == Budget(None, None)
+
+
+def test_frontier_never_rises_with_more_budget():
+    rng = np.random.default_rng(5)
+    hist = _hist(rng, 4000, 1.1)
+    for model in ("btree", "bplus"):
+        opts = PlanOptions(model=model, fanout=10, exact_seconds=0)
+        plan = plan_capacity(hist, 10, options=opts)
+        rows = frontier(plan, hist, opts)
+        assert check_monotone(rows)
+        assert [r["max_pages_rule"] for r in rows] == ["even", "1.1x", "1.25x", "1.5x", "2x", "none"]
+        assert rows[0]["expected_page_reads"] == pytest.approx(plan.recommended_cost.expected_page_reads)
+        for r in rows:
+            assert r["max_pages"] is None or r["pages"] <= r["max_pages"]
+            assert r["height"] <= _height(plan.uniform)
+
+
+@pytest.fixture(scope="module")
+def db(tmp_path_factory):
+    path = tmp_path_factory.mktemp("b") / "b.duckdb"
+    con = duckdb.connect(str(path))
+    con.execute("CREATE TABLE t AS SELECT range * 2 AS k FROM range(900)").fetchall()
+    con.execute("CREATE TABLE lg AS SELECT ((hash(range) % 40) * (hash(range) % 23) * 2)::BIGINT AS k FROM range(6000)").fetchall()
+    con.close()
+    return path
+
+
+def _plan(db, *extra):
+    return runner.invoke(app, ["plan", str(db), "--table", "t", "--key", "k", "--log", "lg", "--keys-per-page", "6", *extra],
+                         env={"COLUMNS": "100"})  # fmt: skip
+
+
+def test_cli_budget_fields_and_frontier(db):
+    res = _plan(db, "--json")
+    assert res.exit_code == 0, res.stderr
+    plan = json.loads(res.stdout)["plans"][0]
+    assert plan["budget"] == {"max_pages": plan["uniform"]["pages"], "max_height": plan["uniform"]["height"]}
+    for layout in (plan["optimized"], plan["uniform"]):
+        assert {"bytes", "mean_fill", "p99_page_reads", "max_page_reads"} <= set(layout)
+        assert layout["p99_page_reads"] <= layout["max_page_reads"] <= layout["height"]
+    assert plan["optimized"]["pages"] <= plan["uniform"]["pages"]
+    rules = [r["max_pages_rule"] for r in plan["frontier"]]
+    assert rules == ["even", "1.1x", "1.25x", "1.5x", "2x", "none"]
+    loose = json.loads(_plan(db, "--json", "--max-pages", "none", "--max-height", "none").stdout)["plans"][0]
+    assert loose["budget"] == {"max_pages": None, "max_height": None}
+    assert loose["optimized"]["expected_page_reads"] <= plan["optimized"]["expected_page_reads"] + 1e-12
+
+
+@pytest.mark.parametrize("args, words", [
+    (["--max-pages", "10"], ["--max-pages", "at least 150"]),
+    (["--max-height", "2"], ["--max-height", "at least 4"]),
+    (["--max-pages", "half"], ["--max-pages must be"]),
+])  # fmt: skip
+def test_cli_impossible_or_bad_budget_is_one_line_exit_5(db, args, words):
+    res = _plan(db, *args)
+    assert res.exit_code == 5, (res.stdout, res.stderr)
+    err = res.stderr.strip()
+    assert len(err.splitlines()) == 1 and "Traceback" not in err
+    for w in words:
+        assert w in err
