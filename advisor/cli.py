@@ -88,6 +88,7 @@ ExportForOpt = Annotated[Optional[int], typer.Option("--export-for", help="Expor
 ForceOpt = Annotated[bool, typer.Option("--force", help="Replace an existing export or picture file.")]
 SvgOpt = Annotated[Optional[Path], typer.Option("--svg", help="Also save the whole report as an SVG picture.")]
 MaxPagesOpt = Annotated[str, typer.Option("--max-pages", help="Most pages a layout may use: even (the even split's count), a ratio such as 1.25x, a page count, or none.")]
+FrontierOpt = Annotated[bool, typer.Option("--frontier/--no-frontier", help="Also plan each page size at 1.1x to 2x the pages and with no page limit.")]
 MaxHeightOpt = Annotated[str, typer.Option("--max-height", help="Most levels a layout may have: even, even+K, a number, or none.")]
 HtmlOpt = Annotated[Optional[Path], typer.Option("--html", help="Also save the whole report as an HTML page.")]
 
@@ -191,6 +192,7 @@ def plan_cmd(
     memory_limit: Annotated[Optional[str], typer.Option("--memory-limit", help="Cap DuckDB's memory while reading the log, e.g. 2GB (it spills to disk beyond).")] = None,
     max_pages: MaxPagesOpt = "even",
     max_height: MaxHeightOpt = "even",
+    show_frontier: FrontierOpt = True,
 ) -> None:
     """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
     with _guard():
@@ -202,7 +204,7 @@ def plan_cmd(
                                 child_pointer, key_bytes, model, fill_factor)  # fmt: skip
         request = Request(settings, smoothing, fanout, truncate_separators, list(pool_pages or []) or None, order_column,
                           replay_limit, holdout, scan_to, parse_storage(storage), pool_bytes, exact_seconds,
-                          BudgetSpec(max_pages, max_height))  # fmt: skip
+                          BudgetSpec(max_pages, max_height), show_frontier)  # fmt: skip
         _run(database, table, key, log, request, as_json, export, export_for, force, log_column, count_column,
              distinct_keys, memory_limit, svg, html)  # fmt: skip
 

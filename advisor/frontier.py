@@ -28,7 +28,8 @@ def frontier(plan: Plan, hist: Histogram, options: PlanOptions, points=FRONTIER_
         if budget_spec == options.budget:
             point = plan  # the run's own plan: not planned twice
         else:
-            point = plan_capacity(hist, plan.keys_per_page, plan.geometry, replace(options, budget=budget_spec))
+            point = plan_capacity(hist, plan.keys_per_page, plan.geometry, replace(options, budget=budget_spec),
+                                  known_bounds=plan.bounds)  # fmt: skip
         layout, cost, bound = point.recommended, point.recommended_cost, point.lower_bound
         if best is not None and best[1].expected_page_reads < cost.expected_page_reads:
             layout, cost = best  # a smaller budget's layout fits this one too

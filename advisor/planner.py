@@ -59,6 +59,7 @@ def near_candidates(hist: Histogram, c: int, model: str = "btree", fanout: int =
     yield "heaviest keys first", lambda: heaviest_first_layout(hist, c)
 
 PROOF_TOLERANCE = 1e-9
+LOOSE_BUDGET = 1.5  # page budgets from this many times the even split's pages also try the unconstrained builders
 POLISH_TOP = 2
 
 
@@ -125,9 +126,11 @@ def plan_capacity(
     geometry: Geometry | None = None,
     options: PlanOptions | None = None,
     on_step: Callable[[str], None] | None = None,
+    known_bounds: dict | None = None,
 ) -> Plan:
     """Plan one capacity ``c``: exact when affordable, else near-optimal with a bound; every
-    layout returned keeps within the budget of ``options.budget``."""
+    layout returned keeps within the budget of ``options.budget``. ``known_bounds``: the
+    budget-free lower bounds of this histogram and capacity, when already computed."""
     opts = options or PlanOptions()
     step = on_step or (lambda _s: None)
     fit = hist.smoothed(opts.smoothing)  # the weights the layout is fitted to
@@ -153,7 +156,9 @@ def plan_capacity(
         check_layout(best, budget)
         check_layout(uni)
     step("bounds")
-    if bplus:
+    if known_bounds is not None:
+        bounds = {k: v for k, v in known_bounds.items() if k != "within_budget"}
+    elif bplus:
         bounds = {"level_capacity": bplus_level_bound(hist, c, F), "leaf_runs": bplus_window_bound(hist, c, F)}
     else:
         bounds = lower_bounds(hist, c)
@@ -293,4 +298,7 @@ def budget_candidates(fit: Histogram, c: int, F: int, uni: Layout, budget: Budge
             for h in sorted({top, max(bplus_height(n, c, F), top - 1)}, reverse=True):
                 yield (f"hot leaves near the root within the budget ({label}, {h} levels)",
                        lambda s=starts, h=h: bplus_within_layout(fit, c, F, pages, h, s) or uni)  # fmt: skip
-    yield from near_candidates(fit, c, opts.model, F, opts)
+    if budget.max_pages is None or budget.max_pages >= LOOSE_BUDGET * uni.pages:
+        # the unconstrained constructions use many more pages than the even split; below a
+        # loose budget they never fit, so they are not built
+        yield from near_candidates(fit, c, opts.model, F, opts)

@@ -29,12 +29,13 @@ print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss, file=sys.stderr)
 """
 
 
-def run_case(db: Path, model: str = "btree") -> tuple[dict, float, float]:
+def run_case(db: Path, model: str = "btree", budget: tuple[str, str] = ("even", "even"),
+             extra: tuple[str, ...] = ("--no-frontier",)) -> tuple[dict, float, float]:
     """Run the CLI in a fresh process; returns (JSON, wall seconds, that process's peak MiB)."""
     t0 = time.perf_counter()
     out = subprocess.run(
         [sys.executable, "-c", CHILD, "plan", str(db), "--table", "t", "--key", "k", "--log", "lg", "--json",
-         "--model", model],
+         "--model", model, "--max-pages", budget[0], "--max-height", budget[1], *extra],
         check=True, capture_output=True, text=True,
     )  # fmt: skip
     wall = time.perf_counter() - t0
@@ -49,25 +50,31 @@ def main() -> None:
     ap.add_argument("--dir", type=Path, default=Path.home() / ".cache" / "advisor-bench")
     ap.add_argument("--workloads", nargs="*", default=list(WORKLOADS))
     ap.add_argument("--model", default="btree", choices=["btree", "bplus"])
+    ap.add_argument("--budgets", nargs="*", default=["even/even", "none/none"],
+                    help="page/height budgets to run, each as PAGES/HEIGHT (as --max-pages / --max-height)")
     args = ap.parse_args()
     print(f"n = {args.keys:,} keys, {args.lookups:,} logged lookups, page sizes 4096/8192/16384, model {args.model}")
-    head = f"{'workload':<20} {'c':>5} {'wall s':>7} {'hist s':>7} {'plan s':>7} {'peak MiB':>9} " \
-           f"{'even':>7} {'advised':>8} {'bound':>7} {'gap %':>6} {'saved %':>8} {'proven':>6}  method"  # fmt: skip
+    head = f"{'workload':<20} {'budget':>10} {'c':>5} {'wall s':>7} {'hist s':>7} {'plan s':>7} {'peak MiB':>9} " \
+           f"{'even':>7} {'advised':>8} {'bound':>7} {'gap %':>6} {'saved %':>8} {'pages even':>10} " \
+           f"{'advised':>9} {'lv':>3} {'lv':>3}  method"  # fmt: skip
     print(head)
     print("-" * len(head))
     for kind in args.workloads:
         db = build(args.dir, kind, args.keys, args.lookups)
-        run, wall, peak = run_case(db, args.model)
-        for p in run["plans"]:
-            print(
-                f"{kind:<20} {p['keys_per_page']:>5} {wall:>7.1f} {run['timings']['histogram_seconds']:>7.1f} "
-                f"{p['seconds']:>7.1f} {peak:>9.0f} {p['uniform']['expected_page_reads']:>7.3f} "
-                f"{p['optimized']['expected_page_reads']:>8.3f} {p['lower_bound']:>7.3f} "
-                f"{100 * p['certified_gap']:>6.1f} {100 * p['saving']:>8.1f} {str(p['proven_optimal']):>6}  "
-                f"{p['optimized']['method']}",
-                flush=True,
-            )
-    print("wall: whole CLI run incl. start-up; hist: DuckDB histogram; plan: one page size; peak: max RSS of the run")
+        for budget in args.budgets:
+            run, wall, peak = run_case(db, args.model, tuple(budget.split("/")))
+            for p in run["plans"]:
+                u, o = p["uniform"], p["optimized"]
+                print(
+                    f"{kind:<20} {budget:>10} {p['keys_per_page']:>5} {wall:>7.1f} "
+                    f"{run['timings']['histogram_seconds']:>7.1f} {p['seconds']:>7.1f} {peak:>9.0f} "
+                    f"{u['expected_page_reads']:>7.3f} {o['expected_page_reads']:>8.3f} {p['lower_bound']:>7.3f} "
+                    f"{100 * p['certified_gap']:>6.1f} {100 * p['saving']:>8.1f} {u['pages']:>10,} {o['pages']:>9,} "
+                    f"{u['height']:>3} {o['height']:>3}  {o['method']}",
+                    flush=True,
+                )
+    print("wall: whole CLI run incl. start-up; hist: DuckDB histogram; plan: one page size; peak: max RSS of the run;")
+    print("budget: --max-pages/--max-height; pages and lv (levels): even split, then advised")
 
 
 if __name__ == "__main__":

@@ -30,6 +30,7 @@ import numpy as np
 from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
 from .uniform import min_height
+from .within_kernel import choose_root_keys
 
 
 def capacity_of(c: int, h: int) -> int:
@@ -177,17 +178,12 @@ def _pages_saved(count: np.ndarray, spare: int) -> int:
     return saved
 
 
-def _root_page(score: np.ndarray, lo: int, hi: int, c: int, h: int, budget: int, tries: int):
-    """Root keys of range lo..hi-1 (ascending global ranks) and the child runs below them."""
-    sub = capacity_of(c, h - 1)
-    size = hi - lo
-    k = min(size, tries * c)
-    local = score[lo:hi]
-    top = np.argpartition(-local, k - 1)[:k] if k < size else np.arange(size)
-    top = top[np.argsort(-local[top], kind="stable")]
-    chosen: list[int] = []  # local ranks, ascending
+def choose_plain(local: np.ndarray, order: np.ndarray, size: int, c: int, sub: int, budget: int) -> np.ndarray:
+    """Hot keys a root page keeps (local ranks, ascending): the plain reference of the compiled
+    :func:`advisor.optimize.within_kernel.choose_root_keys` (tests check they agree)."""
+    chosen: list[int] = []
     state = _RootState(size, c, sub)
-    for x in top.tolist():
+    for x in order.tolist():
         if len(chosen) >= c or local[x] <= 0:
             break
         i = bisect.bisect_left(chosen, x)
@@ -199,7 +195,25 @@ def _root_page(score: np.ndarray, lo: int, hi: int, c: int, h: int, budget: int,
             continue
         chosen.insert(i, x)
         state.split(i, left, right)
-    gaps = state.gaps
+    return np.array(chosen, dtype=np.int64)
+
+
+def choose(local, order, size, c, sub, budget) -> np.ndarray:
+    return choose_root_keys(np.ascontiguousarray(local, dtype=np.float64), np.ascontiguousarray(order, dtype=np.int64),
+                            size, c, sub, budget)  # fmt: skip
+
+
+def _root_page(score: np.ndarray, lo: int, hi: int, c: int, h: int, budget: int, tries: int):
+    """Root keys of range lo..hi-1 (ascending global ranks) and the child runs below them."""
+    sub = capacity_of(c, h - 1)
+    size = hi - lo
+    k = min(size, tries * c)
+    local = score[lo:hi]
+    top = np.argpartition(-local, k - 1)[:k] if k < size else np.arange(size)
+    top = top[np.argsort(-local[top], kind="stable")]
+    chosen = choose(local, top, size, c, min(sub, size + 1), budget)
+    gaps = np.diff(np.concatenate([[-1], chosen, [size]])) - 1
+    gaps, chosen = gaps.tolist(), chosen.tolist()
     plan = _gap_plan(gaps, c, sub, c - len(chosen))
     if plan is None or plan[3] + 1 > budget:  # excluded by the invariant (module docstring)
         raise AssertionError("range not completable within its budget")

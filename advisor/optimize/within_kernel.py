@@ -1,0 +1,127 @@
+"""Compiled kernel of the budgeted root-page choice (:mod:`advisor.optimize.within`).
+
+Offering a key to a root page asks: with this key, can the page still be completed within its
+slots and page budget? The plain version (``within._RootState``) answers in O(c) numpy work per
+key, a per-call overhead that dominated the planner (2 million calls on the demo). Here the same
+arithmetic runs compiled, and the "spare slots save the most pages" greedy is a query on two
+Fenwick trees (counts and summed remainders by remainder size), so each offer costs O(log c).
+The tests check it against the plain version; ``benchmarks/bench_kernels.py`` measures both.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numba import njit
+
+
+@njit(cache=True)
+def _cuts(g, sub):
+    if g <= 0:
+        return 0
+    return (g + 1 + sub) // (sub + 1) - 1
+
+
+@njit(cache=True)
+def _pages(g, c, sub):
+    x = g - _cuts(g, sub)
+    return (x + c - 1) // c
+
+
+@njit(cache=True)
+def _rem(g, c, sub):
+    """Keys to move up to save one page of run g (0: the run needs no page)."""
+    x = g - _cuts(g, sub)
+    if x <= 0:
+        return 0
+    r = x % c
+    return r if r else c
+
+
+@njit(cache=True)
+def _add(tree, i, v):
+    n = tree.shape[0]
+    while i < n:
+        tree[i] += v
+        i += i & (-i)
+
+
+@njit(cache=True)
+def _saved(cnt_tree, cost_tree, count, spare, top_bit):
+    """Most runs whose remainders fit in ``spare`` slots, smallest first (Fenwick descent)."""
+    n = cost_tree.shape[0]
+    pos, used, taken = 0, 0, 0
+    step = top_bit
+    while step:
+        nxt = pos + step
+        if nxt < n and used + cost_tree[nxt] <= spare:
+            pos = nxt
+            used += cost_tree[nxt]
+            taken += cnt_tree[nxt]
+        step >>= 1
+    r = pos + 1  # the first remainder size not taken whole
+    if r < n and count[r] > 0:
+        taken += min(count[r], (spare - used) // r)
+    return taken
+
+
+@njit(cache=True)
+def _tally(cnt_tree, cost_tree, count, g, c, sub, sign):
+    r = _rem(g, c, sub)
+    if r:
+        count[r] += sign
+        _add(cnt_tree, r, sign)
+        _add(cost_tree, r, sign * r)
+
+
+@njit(cache=True)
+def choose_root_keys(local, order, size, c, sub, budget):
+    """Local ranks (ascending) of the hot keys a root page over ``size`` keys keeps, offered in
+    ``order``; ``sub`` = keys a child subtree holds (at most size + 1), ``budget`` = pages."""
+    chosen = np.empty(c, dtype=np.int64)
+    gaps = np.empty(c + 1, dtype=np.int64)
+    count = np.zeros(c + 1, dtype=np.int64)
+    cnt_tree = np.zeros(c + 1, dtype=np.int64)
+    cost_tree = np.zeros(c + 1, dtype=np.int64)
+    top_bit = 1
+    while top_bit * 2 <= c:
+        top_bit *= 2
+    nch = 0
+    gaps[0] = size
+    cuts = _cuts(size, sub)
+    pages = _pages(size, c, sub)
+    _tally(cnt_tree, cost_tree, count, size, c, sub, 1)
+    for t in range(order.shape[0]):
+        if nch >= c:
+            break
+        x = order[t]
+        if local[x] <= 0:
+            break
+        i = np.searchsorted(chosen[:nch], x)
+        left_edge = chosen[i - 1] if i > 0 else -1
+        right_edge = chosen[i] if i < nch else size
+        left = x - left_edge - 1
+        right = right_edge - x - 1
+        g = gaps[i]
+        new_cuts = cuts - _cuts(g, sub) + _cuts(left, sub) + _cuts(right, sub)
+        spare = (c - nch - 1) - new_cuts
+        if spare < 0:
+            continue
+        new_pages = pages - _pages(g, c, sub) + _pages(left, c, sub) + _pages(right, c, sub)
+        _tally(cnt_tree, cost_tree, count, g, c, sub, -1)
+        _tally(cnt_tree, cost_tree, count, left, c, sub, 1)
+        _tally(cnt_tree, cost_tree, count, right, c, sub, 1)
+        if new_pages - _saved(cnt_tree, cost_tree, count, spare, top_bit) + 1 <= budget:
+            for k in range(nch, i, -1):
+                chosen[k] = chosen[k - 1]
+            chosen[i] = x
+            for k in range(nch + 1, i + 1, -1):
+                gaps[k] = gaps[k - 1]
+            gaps[i] = left
+            gaps[i + 1] = right
+            nch += 1
+            cuts, pages = new_cuts, new_pages
+        else:  # undo the trial
+            _tally(cnt_tree, cost_tree, count, left, c, sub, -1)
+            _tally(cnt_tree, cost_tree, count, right, c, sub, -1)
+            _tally(cnt_tree, cost_tree, count, g, c, sub, 1)
+    return chosen[:nch].copy()
