@@ -130,9 +130,8 @@ def test_demo_runs_small(tmp_path):
     run = json.loads(res.stdout)
     assert run["keys"] == 3000 and run["null_lookups"] > 0 and run["misses"] > 0
     again = runner.invoke(app, ["demo", "--dir", str(tmp_path), "--keys", "3000", "--lookups", "20000", "--json"])
-    assert json.loads(again.stdout)["plans"] == run["plans"] or True  # same file, same figures
-    assert [p["optimized"]["expected_page_reads"] for p in json.loads(again.stdout)["plans"]] == \
-        [p["optimized"]["expected_page_reads"] for p in run["plans"]]  # fmt: skip
+    strip = lambda plans: [{k: v for k, v in p.items() if k != "seconds"} for p in plans]  # noqa: E731
+    assert strip(json.loads(again.stdout)["plans"]) == strip(run["plans"])  # same file, same figures
 
 
 def test_buffer_pool_and_lru_replay(small_db):

@@ -78,11 +78,19 @@ def test_exact_at_three_hundred_keys_any_capacity():
 
 
 def test_gotlieb_wood_monotonicity_counterexample_still_solved_exactly():
-    # Counterexample to root monotonicity with positive miss weights (recorded in the project's
-    # algorithm notes, derived by brute force): c = 2, p = (4,7,1,2), q = (2,5,2,9,9).
+    # Root monotonicity fails for multiway trees with positive miss weights (Gotlieb & Wood,
+    # Int. J. Computer Math. 9, 1981). This instance is this project's own, found by brute force
+    # and shown here: c = 2, p = (4,7,1,2), q = (2,5,2,9,9); the optimal first root key of keys
+    # 1..3, 1..4 and 2..4 is k2, k3, k2 (it moves right, then back left as the range shrinks).
     p, q = [4, 7, 1, 2], [2, 5, 2, 9, 9]
     hist = Histogram(np.array(p, float), np.array(q, float))
     assert solve_exact(hist, 2).objective == pytest.approx(brute_force_optimum(p, q, 2), rel=1e-12)
+    firsts = []
+    for lo, hi in [(0, 3), (0, 4), (1, 4)]:
+        sub = Histogram(np.array(p[lo:hi], float), np.array(q[lo : hi + 1], float))
+        assert solve_exact(sub, 2).objective == pytest.approx(brute_force_optimum(p[lo:hi], q[lo : hi + 1], 2))
+        firsts.append(int(solve_exact(sub, 2).layout.keys_of(0)[0]) + lo + 1)
+    assert firsts == [2, 3, 2]
 
 
 def test_degenerate_inputs():

@@ -35,7 +35,7 @@ TYPES = {
 
 
 def _with_nulls(values):
-    return st.lists(st.one_of(st.none(), values) if True else values, min_size=0, max_size=40)
+    return st.lists(st.one_of(st.none(), values), min_size=0, max_size=40)
 
 
 @st.composite

@@ -19,7 +19,6 @@ from advisor.cli import app
 from advisor.workload import load_workload
 
 runner = CliRunner()
-DOCUMENTED_CODES = {0, 2, 3, 4, 5, 6, 7, 8}
 
 
 def make(path: Path, statements: list[str]) -> Path:
