@@ -155,8 +155,8 @@ def parse_storage(text: str) -> StorageProfile:
     return StorageProfile("custom", lat, bw)
 
 
-@app.command("plan")
-def plan_cmd(
+@app.command("recommend")
+def recommend_cmd(
     database: Annotated[Path, typer.Argument(help="DuckDB database file (opened read-only).")],
     table: TableOpt,
     key: KeyOpt,

@@ -1,4 +1,4 @@
-"""A 50-million-row log, generated inside DuckDB (never in Python), through `advisor plan`.
+"""A 50-million-row log, generated inside DuckDB (never in Python), through `advisor recommend`.
 
 Run: .venv/bin/python benchmarks/bench_robust.py [--rows 50000000] [--keys 1000000]
 Shows that the log is aggregated by DuckDB: Python only ever receives O(n) aggregated arrays;
@@ -50,7 +50,7 @@ def main() -> None:
     build(db, args.keys, args.rows)
     t_build = time.perf_counter() - t0
     t0 = time.perf_counter()
-    out = subprocess.run([sys.executable, "-c", CHILD, "plan", str(db), "--table", "t", "--key", "k", "--log", "lg",
+    out = subprocess.run([sys.executable, "-c", CHILD, "recommend", str(db), "--table", "t", "--key", "k", "--log", "lg",
                           "--json", "--page-size", "8192"], check=True, capture_output=True, text=True)  # fmt: skip
     wall = time.perf_counter() - t0
     peak = int(out.stderr.strip().splitlines()[-1]) / 1024

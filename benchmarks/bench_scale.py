@@ -1,4 +1,4 @@
-"""End-to-end `advisor plan` on large seeded workloads: time, peak memory, reads, bound, gap.
+"""End-to-end `advisor recommend` on large seeded workloads: time, peak memory, reads, bound, gap.
 
 Run: .venv/bin/python benchmarks/bench_scale.py [--keys 1000000] [--lookups 10000000]
 Each case runs the real CLI in a fresh subprocess (so peak RSS is that run's own) with the
@@ -34,7 +34,7 @@ def run_case(db: Path, model: str = "btree", budget: tuple[str, str] = ("even", 
     """Run the CLI in a fresh process; returns (JSON, wall seconds, that process's peak MiB)."""
     t0 = time.perf_counter()
     out = subprocess.run(
-        [sys.executable, "-c", CHILD, "plan", str(db), "--table", "t", "--key", "k", "--log", "lg", "--json",
+        [sys.executable, "-c", CHILD, "recommend", str(db), "--table", "t", "--key", "k", "--log", "lg", "--json",
          "--model", model, "--max-pages", budget[0], "--max-height", budget[1], *extra],
         check=True, capture_output=True, text=True,
     )  # fmt: skip

@@ -112,7 +112,7 @@ def test_bplus_through_the_cli(tmp_path):
                 "FROM range(20000)").fetchall()  # fmt: skip
     con.close()
     runner = CliRunner()
-    base = ["plan", str(db), "--table", "t", "--key", "k", "--log", "lg", "--model", "bplus"]
+    base = ["recommend", str(db), "--table", "t", "--key", "k", "--log", "lg", "--model", "bplus"]
     run = json.loads(runner.invoke(app, base + ["--json"]).stdout)
     for p in run["plans"]:
         assert p["model"] == "bplus" and p["fanout"] >= 2
@@ -128,7 +128,7 @@ def test_bplus_through_the_cli(tmp_path):
             assert evaluate(layout, wl.hist).expected_page_reads == pytest.approx(p["optimized"]["expected_page_reads"])
     bad = runner.invoke(app, base + ["--keys-per-page", "8"])
     assert bad.exit_code == 5 and "--fanout" in bad.stderr
-    bad = runner.invoke(app, ["plan", str(db), "--table", "t", "--key", "k", "--model", "btree+"])
+    bad = runner.invoke(app, ["recommend", str(db), "--table", "t", "--key", "k", "--model", "btree+"])
     assert bad.exit_code == 5
     scans = runner.invoke(app, base + ["--json", "--keys-per-page", "8", "--fanout", "5", "--order-column", "k"])
     assert scans.exit_code == 0, scans.stderr
@@ -188,14 +188,14 @@ def test_suffix_truncation_raises_fanout_for_string_keys(tmp_path):
                 "FROM range(20000)").fetchall()  # fmt: skip
     con.execute("CREATE TABLE lg AS SELECT k FROM t USING SAMPLE 3000 ROWS").fetchall()
     con.close()
-    base = ["plan", str(db), "--table", "t", "--key", "k", "--log", "lg", "--model", "bplus", "--json", "--page-size", "4096"]
+    base = ["recommend", str(db), "--table", "t", "--key", "k", "--log", "lg", "--model", "bplus", "--json", "--page-size", "4096"]
     plain = json.loads(CliRunner().invoke(app, base).stdout)["plans"][0]
     short = json.loads(CliRunner().invoke(app, base + ["--truncate-separators"]).stdout)["plans"][0]
     g = short["geometry"]
     assert g["separator_bytes"] < g["key_bytes"]  # prefixes up to the differing digit, plus 2
     assert short["fanout"] > plain["fanout"] == g["untruncated_fanout"]
     assert short["optimized"]["expected_page_reads"] <= plain["optimized"]["expected_page_reads"] + 1e-12
-    bad = CliRunner().invoke(app, ["plan", str(db), "--table", "t", "--key", "k", "--truncate-separators"])
+    bad = CliRunner().invoke(app, ["recommend", str(db), "--table", "t", "--key", "k", "--truncate-separators"])
     assert bad.exit_code == 5
 
 
@@ -211,7 +211,7 @@ def test_both_structures_side_by_side(tmp_path):
                               "--page-size", "4096"])  # fmt: skip
     assert res.exit_code == 0
     db = next(tmp_path.glob("*.duckdb"))
-    args = ["plan", str(db), "--table", "packets", "--key", "packet_no", "--log", "desk_lookups", "--page-size", "4096",
+    args = ["recommend", str(db), "--table", "packets", "--key", "packet_no", "--log", "desk_lookups", "--page-size", "4096",
             "--model", "both", "--order-column", "lookup_seq"]  # fmt: skip
     run = json.loads(runner.invoke(app, args + ["--json"]).stdout)
     assert [p["model"] for p in run["plans"]] == ["btree", "bplus"]

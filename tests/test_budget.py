@@ -127,7 +127,7 @@ def db(tmp_path_factory):
 
 
 def _plan(db, *extra):
-    return runner.invoke(app, ["plan", str(db), "--table", "t", "--key", "k", "--log", "lg", "--keys-per-page", "6", *extra],
+    return runner.invoke(app, ["recommend", str(db), "--table", "t", "--key", "k", "--log", "lg", "--keys-per-page", "6", *extra],
                          env={"COLUMNS": "100"})  # fmt: skip
 
 

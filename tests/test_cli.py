@@ -36,7 +36,7 @@ def small_db(tmp_path_factory):
 
 
 def _plan(db, *extra):
-    return runner.invoke(app, ["plan", str(db), "--table", "items", "--key", "item_no", "--log", "probes", *extra],
+    return runner.invoke(app, ["recommend", str(db), "--table", "items", "--key", "item_no", "--log", "probes", *extra],
                          env={"COLUMNS": "120"})  # fmt: skip
 
 
@@ -98,7 +98,7 @@ def test_export_one_file_per_page_size_and_refuses_to_overwrite(small_db, tmp_pa
 @pytest.mark.parametrize(
     "args, code, words",
     [
-        (["plan", "/nonexistent/x.duckdb", "--table", "items", "--key", "item_no"], 3, "not found"),
+        (["recommend", "/nonexistent/x.duckdb", "--table", "items", "--key", "item_no"], 3, "not found"),
         (["--table", "nope", "--key", "item_no"], 3, "table 'nope'"),
         (["--table", "items", "--key", "nope"], 3, "column 'nope'"),
         (["--table", "items", "--key", "item_no", "--log", "/no/such.parquet"], 3, "log file not found"),
@@ -107,7 +107,7 @@ def test_export_one_file_per_page_size_and_refuses_to_overwrite(small_db, tmp_pa
     ],
 )
 def test_errors_are_one_line_with_their_exit_code(small_db, args, code, words):
-    argv = args if args[0] == "plan" else ["plan", str(small_db), *args]
+    argv = args if args[0] == "recommend" else ["recommend", str(small_db), *args]
     res = runner.invoke(app, argv)
     assert res.exit_code == code, (res.stdout, res.stderr)
     assert words in res.stderr
@@ -116,10 +116,10 @@ def test_errors_are_one_line_with_their_exit_code(small_db, args, code, words):
 
 
 def test_every_command_has_help():
-    for cmd in ("plan", "demo"):
+    for cmd in ("recommend", "demo"):
         res = runner.invoke(app, [cmd, "--help"], env={"COLUMNS": "200"})
         assert res.exit_code == 0 and len(res.stdout) > 200
-    res = runner.invoke(app, ["plan", "--help"], env={"COLUMNS": "200"})
+    res = runner.invoke(app, ["recommend", "--help"], env={"COLUMNS": "200"})
     for opt in ("--table", "--key", "--log", "--page-size", "--keys-per-page", "--json", "--export"):
         assert opt in res.stdout
 

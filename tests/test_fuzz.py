@@ -87,7 +87,7 @@ def test_random_inputs_through_the_cli(tmp_path_factory, case):
         return  # the generator made a value DuckDB itself refuses; nothing to test
     con.close()
     export = d / "layout.parquet"
-    argv = ["plan", str(db), "--table", "t", "--key", "k", "--log", "lg", "--json", "--keys-per-page", str(c),
+    argv = ["recommend", str(db), "--table", "t", "--key", "k", "--log", "lg", "--json", "--keys-per-page", str(c),
             "--export", str(export)]  # fmt: skip
     if counts is not None:
         argv += ["--count-column", "n"]

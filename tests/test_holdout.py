@@ -48,7 +48,7 @@ def test_split_adds_up_to_the_whole_log(ordered_db):
 
 
 def test_cli_shows_in_sample_and_held_out(ordered_db):
-    res = CliRunner().invoke(app, ["plan", str(ordered_db), "--table", "t", "--key", "k", "--log", "lg", "--json",
+    res = CliRunner().invoke(app, ["recommend", str(ordered_db), "--table", "t", "--key", "k", "--log", "lg", "--json",
                                    "--order-column", "ts", "--keys-per-page", "10", "--smoothing", "0.2"])  # fmt: skip
     assert res.exit_code == 0, res.stderr
     held = json.loads(res.stdout)["holdout"]

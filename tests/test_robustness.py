@@ -30,7 +30,7 @@ def make(path: Path, statements: list[str]) -> Path:
 
 
 def plan(db, *args, table="t", key="k", log="lg"):
-    argv = ["plan", str(db), "--table", table, "--key", key]
+    argv = ["recommend", str(db), "--table", table, "--key", key]
     if log is not None:
         argv += ["--log", log]
     return runner.invoke(app, argv + list(args), env={"COLUMNS": "120"})
@@ -198,7 +198,7 @@ def test_ctrl_c_leaves_no_partial_file(tmp_path, phase):
     ])  # fmt: skip
     target = tmp_path / "out.csv"
     proc = subprocess.Popen(
-        [sys.executable, "-m", "advisor", "plan", str(db), "--table", "t", "--key", "k", "--log", "lg",
+        [sys.executable, "-m", "advisor", "recommend", str(db), "--table", "t", "--key", "k", "--log", "lg",
          "--keys-per-page", "16", "--export", str(target)],
         stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env={**os.environ, "ADVISOR_PAUSE_AT": phase},
     )  # fmt: skip

@@ -62,7 +62,7 @@ def test_scan_reader_and_cli(tmp_path):
         want[key] = want.get(key, 0.0) + 1.0
     assert got == want
     assert points.total == 3000
-    res = CliRunner().invoke(app, ["plan", str(db), "--table", "t", "--key", "k", "--log", "lg", "--json",
+    res = CliRunner().invoke(app, ["recommend", str(db), "--table", "t", "--key", "k", "--log", "lg", "--json",
                                    "--keys-per-page", "6", "--scan-to", "k_to"])  # fmt: skip
     assert res.exit_code == 0, res.stderr
     s = json.loads(res.stdout)["plans"][0]["range_scans"]
