@@ -24,7 +24,8 @@ _HOME = {
     "read_layout": "export", "write_layout": "export", "Histogram": "histogram",
     "Cost": "layout", "Layout": "layout", "check_layout": "layout", "evaluate": "layout",
     "solve_exact": "optimize", "Plan": "planner", "PlanOptions": "planner", "plan_capacity": "planner",
-    "Workload": "workload", "load_workload": "workload",
+    "Workload": "workload", "load_workload": "workload", "PagedIndex": "pagefile",
+    "build_index": "build", "probe_index": "build", "BudgetSpec": "budget",
 }
 
 
@@ -42,6 +43,10 @@ def __dir__() -> list[str]:
 
 __all__ = [
     "AdvisorError",
+    "BudgetSpec",
+    "PagedIndex",
+    "build_index",
+    "probe_index",
     "Analysis",
     "Cost",
     "Histogram",

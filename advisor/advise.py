@@ -124,6 +124,22 @@ class Request:
     frontier: bool = True  # also plan at 1.1x .. 2x and no page limit (the reads-space frontier)
 
 
+def plan_one(wl: Workload, req: Request) -> Plan:
+    """The plan of the one page size (or keys per page) the request names: what a build writes."""
+    s = req.settings
+    if s.model not in ("btree", "bplus"):
+        raise SettingInvalid("a build writes one structure: --model btree or bplus")
+    targets = capacities(s, wl.key_bytes)
+    if len(targets) != 1:
+        raise SettingInvalid(f"a build writes one page size; {len(targets)} were asked for (give one --page-size)")
+    if req.truncate_separators:
+        raise SettingInvalid("--truncate-separators sizes pages for shortened separators; a build stores full keys")
+    c, g = targets[0]
+    options = PlanOptions(smoothing=req.smoothing, model=s.model, fanout=req.fanout or 0,
+                          exact_seconds=req.exact_seconds, budget=req.budget)  # fmt: skip
+    return plan_capacity(wl.hist, c, g, options)
+
+
 @dataclass
 class Analysis:
     plans: list[Plan]

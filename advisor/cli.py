@@ -25,10 +25,10 @@ from .advise import PageSettings, Request, analyse, export_paths
 from .demo import DEMO_KEY, DEMO_LOG, DEMO_TABLE, build_demo
 from .atomic import atomic_path
 from .budget import BudgetSpec
-from .errors import AdvisorError, OutputRefused, SettingInvalid
+from .errors import AdvisorError, LayoutInvalid, OutputRefused, SettingInvalid
 from .export import check_destination, check_target, write_layout
 from .pagesize import PROFILES, StorageProfile
-from .report import render_run
+from .report import render_probe, render_run
 from .workload import load_workload
 
 app = typer.Typer(
@@ -77,20 +77,49 @@ def _progress(enabled: bool) -> Progress:
     )  # fmt: skip
 
 
-TableOpt = Annotated[str, typer.Option("--table", help="Table holding the indexed key column.")]
-KeyOpt = Annotated[str, typer.Option("--key", help="The indexed key column.")]
-LogOpt = Annotated[Optional[str], typer.Option("--log", help="Lookup log: a table in the database, or a .parquet/.csv file.")]
-PageSizeOpt = Annotated[Optional[list[int]], typer.Option("--page-size", help="Page size in bytes (repeatable; default 4096, 8192, 16384).")]
-KppOpt = Annotated[Optional[list[int]], typer.Option("--keys-per-page", help="Capacity c in keys per page, instead of a page size (repeatable).")]
-JsonOpt = Annotated[bool, typer.Option("--json", help="Print one JSON object on stdout instead of the report.")]
-ExportOpt = Annotated[Optional[Path], typer.Option("--export", help="Write the recommended pages and their keys (.csv, .json, .parquet, .duckdb).")]
-ExportForOpt = Annotated[Optional[int], typer.Option("--export-for", help="Export only the plan for this page size (or keys per page).")]
-ForceOpt = Annotated[bool, typer.Option("--force", help="Replace an existing export or picture file.")]
-SvgOpt = Annotated[Optional[Path], typer.Option("--svg", help="Also save the whole report as an SVG picture.")]
-MaxPagesOpt = Annotated[str, typer.Option("--max-pages", help="Most pages a layout may use: even (the even split's count), a ratio such as 1.25x, a page count, or none.")]
-FrontierOpt = Annotated[bool, typer.Option("--frontier/--no-frontier", help="Also plan each page size at 1.1x to 2x the pages and with no page limit.")]
-MaxHeightOpt = Annotated[str, typer.Option("--max-height", help="Most levels a layout may have: even, even+K, a number, or none.")]
-HtmlOpt = Annotated[Optional[Path], typer.Option("--html", help="Also save the whole report as an HTML page.")]
+IN, GEO, BUD, OUT, WL, SOLVE = "Table and log", "Page geometry", "Budget", "Output", "Workload checks", "Solver"
+
+
+def _opt(name: str, text: str, panel: str, **kw):
+    return typer.Option(name, help=text, rich_help_panel=panel, **kw)
+
+
+DatabaseArg = Annotated[Path, typer.Argument(help="DuckDB database file (opened read-only).", metavar="DATABASE")]
+TableOpt = Annotated[str, _opt("--table", "Table holding the indexed key column.", IN, metavar="NAME")]
+KeyOpt = Annotated[str, _opt("--key", "The indexed key column.", IN, metavar="COLUMN")]
+LogOpt = Annotated[Optional[str], _opt("--log", "Lookup log: a table in the database, or a .parquet/.csv file.", IN, metavar="TABLE|FILE")]
+LogColumnOpt = Annotated[Optional[str], _opt("--log-column", "Looked-up value column in the log (default: the key's name).", IN, metavar="COLUMN")]
+CountColumnOpt = Annotated[Optional[str], _opt("--count-column", "Log column with a lookup count per row (pre-aggregated log).", IN, metavar="COLUMN")]
+DistinctOpt = Annotated[bool, _opt("--distinct-keys", "Accept a key column with repeated values: one entry per distinct value.", IN)]
+MemoryOpt = Annotated[Optional[str], _opt("--memory-limit", "Cap DuckDB's memory while reading the log, e.g. 2GB (it spills to disk beyond).", IN, metavar="SIZE")]
+PageSizeOpt = Annotated[Optional[list[int]], _opt("--page-size", "Page size in bytes (repeatable; default 4096, 8192, 16384).", GEO, metavar="BYTES")]
+KppOpt = Annotated[Optional[list[int]], _opt("--keys-per-page", "Capacity c in keys per page, instead of a page size (repeatable).", GEO, metavar="C")]
+HeaderOpt = Annotated[int, _opt("--page-header", "Bytes per page kept for the header.", GEO, metavar="BYTES")]
+RecordOpt = Annotated[int, _opt("--record-pointer", "Bytes per record pointer.", GEO, metavar="BYTES")]
+ChildOpt = Annotated[int, _opt("--child-pointer", "Bytes per child-page pointer.", GEO, metavar="BYTES")]
+KeyBytesOpt = Annotated[Optional[float], _opt("--key-bytes", "Bytes per key (default: from the column type or measured).", GEO, metavar="BYTES")]
+ModelOpt = Annotated[str, _opt("--model", "Index structure: btree (keys in every page), bplus (keys only in leaves) or both side by side.", GEO, metavar="btree|bplus|both")]
+FanoutOpt = Annotated[Optional[int], _opt("--fanout", "bplus: children per internal page, with --keys-per-page (which then sets the leaf capacity).", GEO, min=2, metavar="F")]
+FillOpt = Annotated[float, _opt("--fill-factor", "bplus: share of each leaf page filled (0..1].", GEO, metavar="SHARE")]
+TruncateOpt = Annotated[bool, _opt("--truncate-separators", "bplus, string keys: shorten separators to the shortest prefix that still separates two leaves.", GEO)]
+MaxPagesOpt = Annotated[str, _opt("--max-pages", "Most pages a layout may use: even (the even split's count), a ratio such as 1.25x, a page count, or none.", BUD, metavar="SPEC")]
+MaxHeightOpt = Annotated[str, _opt("--max-height", "Most levels a layout may have: even, even+K, a number, or none.", BUD, metavar="SPEC")]
+FrontierOpt = Annotated[bool, _opt("--frontier/--no-frontier", "Also plan each page size at 1.1x to 2x the pages and with no page limit.", BUD)]
+JsonOpt = Annotated[bool, _opt("--json", "Print one JSON object on stdout instead of the report.", OUT)]
+ExportOpt = Annotated[Optional[Path], _opt("--export", "Write the recommended pages and their keys (.csv, .json, .parquet, .duckdb).", OUT, metavar="FILE")]
+ExportForOpt = Annotated[Optional[int], _opt("--export-for", "Export only the plan for this page size (or keys per page).", OUT, metavar="SIZE")]
+ForceOpt = Annotated[bool, _opt("--force", "Replace an existing output file.", OUT)]
+SvgOpt = Annotated[Optional[Path], _opt("--svg", "Also save the whole report as an SVG picture.", OUT, metavar="FILE")]
+HtmlOpt = Annotated[Optional[Path], _opt("--html", "Also save the whole report as an HTML page.", OUT, metavar="FILE")]
+PoolOpt = Annotated[Optional[list[int]], _opt("--pool-pages", "Buffer pool size in pages (repeatable; default 0.1% to 10% of the index).", WL, min=1, metavar="PAGES")]
+OrderOpt = Annotated[Optional[str], _opt("--order-column", "Log column giving lookup order (time or sequence): enables the LRU replay.", WL, metavar="COLUMN")]
+ReplayOpt = Annotated[int, _opt("--replay-limit", "Replay at most this many lookups (the earliest).", WL, min=1, metavar="N")]
+StorageOpt = Annotated[str, _opt("--storage", "Storage profile for the page-size choice: nvme, sata-ssd, network-disk, hdd, or LATENCY_US,MB_PER_S.", WL, metavar="PROFILE")]
+PoolBytesOpt = Annotated[Optional[int], _opt("--pool-bytes", "Buffer pool bytes for the page-size choice (default: 1% of the index).", WL, min=1, metavar="BYTES")]
+HoldoutOpt = Annotated[float, _opt("--holdout", "With --order-column: share of the latest lookups held out to judge a plan fitted on the rest (0 turns it off).", WL, min=0.0, max=0.9, metavar="SHARE")]
+ScanOpt = Annotated[Optional[str], _opt("--scan-to", "Log column with a range scan's upper bound; rows where it is set scan from the looked-up value to it.", WL, metavar="COLUMN")]
+SmoothOpt = Annotated[float, _opt("--smoothing", "Blend the fitted histogram with uniform weight: 0 none .. 1 all uniform.", SOLVE, min=0.0, max=1.0, metavar="ALPHA")]
+ExactOpt = Annotated[float, _opt("--exact-seconds", "Run the exact optimiser when it should finish within this many seconds per page size.", SOLVE, min=0.0, metavar="SECONDS")]
 
 
 def save_pictures(run: dict, svg: Path | None, html: Path | None, replace: bool) -> None:
@@ -157,49 +186,46 @@ def parse_storage(text: str) -> StorageProfile:
 
 @app.command("recommend")
 def recommend_cmd(
-    database: Annotated[Path, typer.Argument(help="DuckDB database file (opened read-only).")],
+    database: DatabaseArg,
     table: TableOpt,
     key: KeyOpt,
     log: LogOpt = None,
-    log_column: Annotated[Optional[str], typer.Option("--log-column", help="Looked-up value column in the log (default: the key's name).")] = None,
-    count_column: Annotated[Optional[str], typer.Option("--count-column", help="Log column with a lookup count per row (pre-aggregated log).")] = None,
+    log_column: LogColumnOpt = None,
+    count_column: CountColumnOpt = None,
     page_size: PageSizeOpt = None,
     keys_per_page: KppOpt = None,
-    page_header: Annotated[int, typer.Option("--page-header", help="Bytes per page kept for the header.")] = PageSettings.page_header,
-    record_pointer: Annotated[int, typer.Option("--record-pointer", help="Bytes per record pointer.")] = PageSettings.record_pointer,
-    child_pointer: Annotated[int, typer.Option("--child-pointer", help="Bytes per child-page pointer.")] = PageSettings.child_pointer,
-    key_bytes: Annotated[Optional[float], typer.Option("--key-bytes", help="Bytes per key (default: from the column type or measured).")] = None,
+    page_header: HeaderOpt = PageSettings.page_header,
+    record_pointer: RecordOpt = PageSettings.record_pointer,
+    child_pointer: ChildOpt = PageSettings.child_pointer,
+    key_bytes: KeyBytesOpt = None,
     as_json: JsonOpt = False,
     export: ExportOpt = None,
     export_for: ExportForOpt = None,
     force: ForceOpt = False,
-    distinct_keys: Annotated[bool, typer.Option("--distinct-keys", help="Accept a key column with repeated values: one entry per distinct value.")] = False,
-    pool_pages: Annotated[Optional[list[int]], typer.Option("--pool-pages", help="Buffer pool size in pages (repeatable; default 0.1% to 10% of the index).", min=1)] = None,
-    order_column: Annotated[Optional[str], typer.Option("--order-column", help="Log column giving lookup order (time or sequence): enables the LRU replay.")] = None,
-    replay_limit: Annotated[int, typer.Option("--replay-limit", help="Replay at most this many lookups (the earliest).", min=1)] = 1_000_000,
-    storage: Annotated[str, typer.Option("--storage", help="Storage profile for the page-size choice: nvme, sata-ssd, network-disk, hdd, or LATENCY_US,MB_PER_S.")] = "nvme",
-    pool_bytes: Annotated[Optional[int], typer.Option("--pool-bytes", help="Buffer pool bytes for the page-size choice (default: 1% of the index).", min=1)] = None,
+    distinct_keys: DistinctOpt = False,
+    pool_pages: PoolOpt = None,
+    order_column: OrderOpt = None,
+    replay_limit: ReplayOpt = 1_000_000,
+    storage: StorageOpt = "nvme",
+    pool_bytes: PoolBytesOpt = None,
     svg: SvgOpt = None,
     html: HtmlOpt = None,
-    holdout: Annotated[float, typer.Option("--holdout", help="With --order-column: share of the latest lookups held out to judge a plan fitted on the rest (0 turns it off).", min=0.0, max=0.9)] = 0.2,
-    smoothing: Annotated[float, typer.Option("--smoothing", help="Blend the fitted histogram with uniform weight: 0 none .. 1 all uniform.", min=0.0, max=1.0)] = 0.0,
-    scan_to: Annotated[Optional[str], typer.Option("--scan-to", help="Log column with a range scan's upper bound; rows where it is set scan from the looked-up value to it.")] = None,
-    model: Annotated[str, typer.Option("--model", help="Index structure: btree (keys in every page), bplus (keys only in leaves) or both side by side.")] = "btree",
-    fanout: Annotated[Optional[int], typer.Option("--fanout", help="bplus: children per internal page, with --keys-per-page (which then sets the leaf capacity).", min=2)] = None,
-    fill_factor: Annotated[float, typer.Option("--fill-factor", help="bplus: share of each leaf page filled (0..1].")] = 1.0,
-    truncate_separators: Annotated[bool, typer.Option("--truncate-separators", help="bplus, string keys: shorten separators to the shortest prefix that still separates two leaves.")] = False,
-    exact_seconds: Annotated[float, typer.Option("--exact-seconds", help="Run the exact optimiser when it should finish within this many seconds per page size.", min=0.0)] = 5.0,
-    memory_limit: Annotated[Optional[str], typer.Option("--memory-limit", help="Cap DuckDB's memory while reading the log, e.g. 2GB (it spills to disk beyond).")] = None,
+    holdout: HoldoutOpt = 0.2,
+    smoothing: SmoothOpt = 0.0,
+    scan_to: ScanOpt = None,
+    model: ModelOpt = "btree",
+    fanout: FanoutOpt = None,
+    fill_factor: FillOpt = 1.0,
+    truncate_separators: TruncateOpt = False,
+    exact_seconds: ExactOpt = 5.0,
+    memory_limit: MemoryOpt = None,
     max_pages: MaxPagesOpt = "even",
     max_height: MaxHeightOpt = "even",
     show_frontier: FrontierOpt = True,
 ) -> None:
     """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
     with _guard():
-        if model not in ("btree", "bplus", "both"):
-            raise SettingInvalid(f"--model must be btree, bplus or both, got {model!r}")
-        if model in ("bplus", "both") and keys_per_page and not fanout:
-            raise SettingInvalid("--model bplus with --keys-per-page needs --fanout")
+        _check_model(model, keys_per_page, fanout)
         settings = PageSettings(list(page_size or []), list(keys_per_page or []), page_header, record_pointer,
                                 child_pointer, key_bytes, model, fill_factor)  # fmt: skip
         request = Request(settings, smoothing, fanout, truncate_separators, list(pool_pages or []) or None, order_column,
@@ -207,6 +233,97 @@ def recommend_cmd(
                           BudgetSpec(max_pages, max_height), show_frontier)  # fmt: skip
         _run(database, table, key, log, request, as_json, export, export_for, force, log_column, count_column,
              distinct_keys, memory_limit, svg, html)  # fmt: skip
+
+
+def _check_model(model: str, keys_per_page, fanout) -> None:
+    if model not in ("btree", "bplus", "both"):
+        raise SettingInvalid(f"--model must be btree, bplus or both, got {model!r}")
+    if model in ("bplus", "both") and keys_per_page and not fanout:
+        raise SettingInvalid("--model bplus with --keys-per-page needs --fanout")
+
+
+@app.command("build")
+def build_cmd(
+    database: DatabaseArg,
+    table: TableOpt,
+    key: KeyOpt,
+    out: Annotated[Path, _opt("--out", "The index file to write (refused if it exists, unless --force).", OUT, metavar="FILE")],
+    log: LogOpt = None,
+    log_column: LogColumnOpt = None,
+    count_column: CountColumnOpt = None,
+    page_size: Annotated[Optional[int], _opt("--page-size", "Page size in bytes of the file (default 4096).", GEO, metavar="BYTES")] = None,
+    keys_per_page: Annotated[Optional[int], _opt("--keys-per-page", "Capacity c instead of the geometry formula (the file still needs --page-size).", GEO, metavar="C")] = None,
+    page_header: HeaderOpt = PageSettings.page_header,
+    record_pointer: RecordOpt = PageSettings.record_pointer,
+    child_pointer: ChildOpt = PageSettings.child_pointer,
+    key_bytes: KeyBytesOpt = None,
+    model: Annotated[str, _opt("--model", "Index structure: btree or bplus.", GEO, metavar="btree|bplus")] = "btree",
+    fanout: FanoutOpt = None,
+    fill_factor: FillOpt = 1.0,
+    layout: Annotated[str, _opt("--layout", "Which layout to write: advised or even (the even split, to compare).", OUT, metavar="advised|even")] = "advised",
+    max_pages: MaxPagesOpt = "even",
+    max_height: MaxHeightOpt = "even",
+    smoothing: SmoothOpt = 0.0,
+    exact_seconds: ExactOpt = 5.0,
+    distinct_keys: DistinctOpt = False,
+    memory_limit: MemoryOpt = None,
+    force: ForceOpt = False,
+    as_json: JsonOpt = False,
+) -> None:
+    """Write the advised (or even-split) layout as a file of fixed-size pages you can probe."""
+    with _guard():
+        from .advise import plan_one
+        from .build import build_index
+
+        if layout not in ("advised", "even"):
+            raise SettingInvalid(f"--layout must be advised or even, got {layout!r}")
+        _check_model(model, [keys_per_page] if keys_per_page else None, fanout)
+        if model == "both":
+            raise SettingInvalid("a build writes one structure: --model btree or bplus")
+        if out.exists() and not force:
+            raise OutputRefused(f"{out} exists; pass --force to replace it")
+        size = page_size or 4096
+        settings = PageSettings([] if keys_per_page else [size], [keys_per_page] if keys_per_page else [], page_header,
+                                record_pointer, child_pointer, key_bytes, model, fill_factor)  # fmt: skip
+        request = Request(settings, smoothing, fanout, exact_seconds=exact_seconds, budget=BudgetSpec(max_pages, max_height),
+                          frontier=False)  # fmt: skip
+        with load_workload(database, table, key, log, log_column, count_column, distinct_keys, memory_limit) as wl:
+            plan = plan_one(wl, request)
+            summary = build_index(wl, plan, out, layout, force, size)
+        if as_json:
+            print(json.dumps(summary, indent=2))
+        else:
+            Console(highlight=False).print(
+                f"Wrote {summary['path']}: {summary['pages']:,} pages of {summary['page_size']:,} bytes "
+                f"({summary['layout']} {summary['model']} layout), predicted {summary['predicted_page_reads']:.3f} page reads "
+                "per lookup. Measure it with: advisor probe FILE DATABASE --log LOG"
+            )  # fmt: skip
+
+
+@app.command("probe")
+def probe_cmd(
+    index_file: Annotated[Path, typer.Argument(help="An index file written by advisor build.", metavar="FILE")],
+    database: DatabaseArg,
+    log: Annotated[str, _opt("--log", "Lookup log to replay: a table in the database, or a .parquet/.csv file.", IN, metavar="TABLE|FILE")],
+    log_column: LogColumnOpt = None,
+    count_column: CountColumnOpt = None,
+    order_column: Annotated[Optional[str], _opt("--order-column", "Replay the log in this column's order (default: as stored).", IN, metavar="COLUMN")] = None,
+    limit: Annotated[Optional[int], _opt("--limit", "Replay at most this many log rows.", IN, min=1, metavar="N")] = None,
+    pool_pages: Annotated[int, _opt("--pool-pages", "An LRU pool of this many pages in front of the file (0: every page visit is a read).", WL, min=0, metavar="PAGES")] = 0,
+    cold: Annotated[bool, _opt("--cold", "Drop the file from the operating system's page cache before the replay.", WL)] = False,
+    as_json: JsonOpt = False,
+) -> None:
+    """Replay a log against an index file: page reads counted against the model's prediction."""
+    with _guard():
+        from .build import probe_index
+
+        res = probe_index(index_file, database, log, log_column, count_column, order_column, limit, pool_pages, cold)
+        if as_json:
+            print(json.dumps(res.as_dict(), indent=2))
+        else:
+            Console(highlight=False).print(render_probe(res.as_dict(), str(index_file)))
+        if res.wrong_rows:
+            raise LayoutInvalid(f"{res.wrong_rows} found keys returned a row number that is not their table row")
 
 
 @app.command("demo")

@@ -386,3 +386,24 @@ def render_run(run: dict) -> Group:
         parts.append(e)
     parts.append(Panel(Text(FOOTER), style="yellow"))
     return Group(*parts)
+
+
+def render_probe(res: dict, path: str) -> Group:
+    """The probe's figures: counted page reads beside the model's prediction for the same log."""
+    t = Table(title=f"Replay of the log against {path}", title_justify="left")
+    t.add_column("figure")
+    t.add_column("value", justify="right")
+    rows = [
+        ("lookups replayed", f"{res['lookups']:,}"),
+        ("found / not found", f"{res['found']:,} / {res['not_found']:,}"),
+        ("page reads per lookup, counted", f"{res['page_reads_per_lookup']:.4f}"),
+        ("page reads per lookup, predicted by the model", f"{res['predicted_page_reads_per_lookup']:.4f}"),
+        ("microseconds per lookup (wall, this process)", f"{res['microseconds_per_lookup']:.1f}"),
+        ("operating-system cache dropped first", "yes" if res["cold"] else "no"),
+    ]
+    if res.get("pool_misses_per_lookup") is not None:
+        rows.append((f"pool misses per lookup (LRU, {res['pool_pages']:,} pages)", f"{res['pool_misses_per_lookup']:.4f}"))
+    rows.append(("found keys with a wrong row number", f"{res['wrong_rows']:,}"))
+    for a, b in rows:
+        t.add_row(a, b)
+    return Group(t, Panel(Text(FOOTER), style="yellow"))
