@@ -2,13 +2,15 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from pathlib import Path
-from typing import Callable
 
 import numpy as np
 
+from .balanced import balanced_bplus_layout, balanced_miss_bound
 from .budget import BudgetSpec
+from .bufferpool import pinned_misses, pool_figures
 from .errors import SettingInvalid
 from .frontier import frontier
 from .geometry import (
@@ -19,8 +21,6 @@ from .geometry import (
     Geometry,
     geometry_for,
 )
-from .balanced import balanced_bplus_layout, balanced_miss_bound
-from .bufferpool import pinned_misses, pool_figures
 from .histogram import Histogram
 from .holdout import holdout_rows
 from .layout import evaluate
@@ -57,8 +57,15 @@ def capacities(settings: PageSettings, measured_key_bytes: float) -> list[tuple[
     for size in sizes:
         if size < 1:
             raise SettingInvalid(f"page size must be positive, got {size}")
-        g = geometry_for(size, kb, settings.page_header, settings.record_pointer, settings.child_pointer,
-                         settings.model, settings.fill_factor)  # fmt: skip
+        g = geometry_for(
+            size,
+            kb,
+            settings.page_header,
+            settings.record_pointer,
+            settings.child_pointer,
+            settings.model,
+            settings.fill_factor,
+        )
         out.append((g.leaf_capacity if settings.model == "bplus" else g.capacity, g))
     return out
 
@@ -135,8 +142,13 @@ def plan_one(wl: Workload, req: Request) -> Plan:
     if req.truncate_separators:
         raise SettingInvalid("--truncate-separators sizes pages for shortened separators; a build stores full keys")
     c, g = targets[0]
-    options = PlanOptions(smoothing=req.smoothing, model=s.model, fanout=req.fanout or 0,
-                          exact_seconds=req.exact_seconds, budget=req.budget)  # fmt: skip
+    options = PlanOptions(
+        smoothing=req.smoothing,
+        model=s.model,
+        fanout=req.fanout or 0,
+        exact_seconds=req.exact_seconds,
+        budget=req.budget,
+    )
     return plan_capacity(wl.hist, c, g, options)
 
 
@@ -174,17 +186,26 @@ def analyse(wl: Workload, req: Request, on_plan: Callable[[int, str], None] | No
     if req.truncate_separators:
         targets = [(c, replace(g, separator_bytes=truncated_separator_bytes(wl, c)) if g else g) for c, g in targets]
     unique = list({(c, g.page_size if g else None): (c, g) for c, g in targets}.values())
-    options = PlanOptions(smoothing=req.smoothing, model=s.model, fanout=req.fanout or 0,
-                          exact_seconds=req.exact_seconds, budget=req.budget)  # fmt: skip
+    options = PlanOptions(
+        smoothing=req.smoothing,
+        model=s.model,
+        fanout=req.fanout or 0,
+        exact_seconds=req.exact_seconds,
+        budget=req.budget,
+    )
     plans = advise(wl.hist, unique, options, on_plan)
     replay = load_replay(wl, req.order_column, req.replay_limit) if req.order_column else None
     pools = [pool_figures(p.uniform, p.recommended, wl.hist, replay, req.pool_pages) for p in plans]
     inputs = {
-        "database": wl.info.get("database"), "table": wl.table, "key": wl.key, "key_type": wl.key_type,
-        "key_bytes": round(wl.key_bytes, 2), "log": wl.log or "(none)",
+        "database": wl.info.get("database"),
+        "table": wl.table,
+        "key": wl.key,
+        "key_type": wl.key_type,
+        "key_bytes": round(wl.key_bytes, 2),
+        "log": wl.log or "(none)",
         **{k: v for k, v in wl.info.items() if k != "database"},
         "replayed_lookups": int(replay.outcomes.size) if replay is not None else None,
-    }  # fmt: skip
+    }
     run = run_dict(wl.hist, plans, inputs, [], pools)
     if req.frontier:
         for idx, (entry, p) in enumerate(zip(run["plans"], plans, strict=True)):
@@ -192,25 +213,43 @@ def analyse(wl: Workload, req: Request, on_plan: Callable[[int, str], None] | No
                 on_plan(idx, "reads-space frontier")
             entry["frontier"] = frontier(p, wl.hist, options)
     if s.model == "bplus":
-        for entry, p in zip(run["plans"], plans):
+        for entry, p in zip(run["plans"], plans, strict=False):
             layout, sizes, how = balanced_bplus_layout(wl.hist, p.uniform, req.pool_pages)
             depths = p.uniform.depths()[p.uniform.leaf] if p.uniform.pages else np.zeros(1, dtype=np.int64)
             height, one_depth = int(depths.max()), bool(depths.min() == depths.max())
-            rows = zip(sizes, pinned_misses(p.uniform, wl.hist, sizes), pinned_misses(layout, wl.hist, sizes))
-            entry["balanced"] = cost_dict(evaluate(layout, wl.hist), layout, p.page_size) | {"method": how, "buffer_pool": [
-                {"pool_pages": b, "uniform_pinned": u, "balanced_pinned": m,
-                 "lower_bound": balanced_miss_bound(wl.hist, p.keys_per_page, p.fanout, height, b, one_depth)}
-                for b, u, m in rows]}  # fmt: skip
+            even_misses, balanced_misses = (
+                pinned_misses(p.uniform, wl.hist, sizes),
+                pinned_misses(layout, wl.hist, sizes),
+            )
+            rows = zip(sizes, even_misses, balanced_misses, strict=True)
+            entry["balanced"] = cost_dict(evaluate(layout, wl.hist), layout, p.page_size) | {
+                "method": how,
+                "buffer_pool": [
+                    {
+                        "pool_pages": b,
+                        "uniform_pinned": u,
+                        "balanced_pinned": m,
+                        "lower_bound": balanced_miss_bound(wl.hist, p.keys_per_page, p.fanout, height, b, one_depth),
+                    }
+                    for b, u, m in rows
+                ],
+            }
     if req.scan_to:
         first, last, weight, points = load_scans(wl, req.scan_to)
-        for entry, p in zip(run["plans"], plans):
+        for entry, p in zip(run["plans"], plans, strict=False):
             entry["range_scans"] = scan_figures(p, points, first, last, weight)
     if req.order_column and req.holdout > 0:
         train, test = load_split(wl, req.order_column, req.holdout)
         alphas = [0.0] + ([req.smoothing] if req.smoothing > 0 else [])
-        run["holdout"] = {"fraction": req.holdout, "train_lookups": train.total, "test_lookups": test.total,
-                          "rows": holdout_rows(train, test, unique, alphas, options)}  # fmt: skip
-    choice = page_size_table(plans, wl.hist, req.storage or PROFILES["nvme"], req.pool_bytes or default_pool_bytes(plans))
+        run["holdout"] = {
+            "fraction": req.holdout,
+            "train_lookups": train.total,
+            "test_lookups": test.total,
+            "rows": holdout_rows(train, test, unique, alphas, options),
+        }
+    choice = page_size_table(
+        plans, wl.hist, req.storage or PROFILES["nvme"], req.pool_bytes or default_pool_bytes(plans)
+    )
     if choice["rows"]:
         run["page_size_choice"] = choice
     return Analysis(plans, run)

@@ -20,7 +20,9 @@ from .layout import Layout, LayoutBuilder, evaluate
 from .optimize.bplus import bplus_level_bound, bplus_weights, hot_leaf_starts, leaves_to_tree
 
 
-def balanced_bplus_layout(hist: Histogram, uniform: Layout, pages: list[int] | None = None) -> tuple[Layout, list[int], str]:
+def balanced_bplus_layout(
+    hist: Histogram, uniform: Layout, pages: list[int] | None = None
+) -> tuple[Layout, list[int], str]:
     """Best balanced layout for the pool sizes (default: 0.1%..10% of the even split's pages)."""
     L, F, n = uniform.capacity, uniform.fanout, hist.n
     sizes = pool_sizes(uniform.pages, pages=pages)
@@ -34,7 +36,7 @@ def balanced_bplus_layout(hist: Histogram, uniform: Layout, pages: list[int] | N
         if every is not None:  # exact: the best of every balanced tree under the same rule
             for cand in every:
                 misses = pinned_misses(cand, hist, sizes)
-                if all(m <= b + 1e-12 for m, b in zip(misses, base)) and sum(misses) < best_score - 1e-12:
+                if all(m <= b + 1e-12 for m, b in zip(misses, base, strict=False)) and sum(misses) < best_score - 1e-12:
                     best, best_score, how = cand, sum(misses), "exact: best of every balanced tree"
             if how.startswith("even"):
                 how = "exact: the even split is already best"
@@ -47,7 +49,9 @@ def balanced_bplus_layout(hist: Histogram, uniform: Layout, pages: list[int] | N
     aligned = np.concatenate([[0], np.arange(offset, n, L)]) if offset else np.arange(0, n, L)
     candidates = [("full leaves aligned on the hottest run", np.unique(aligned))]
     for k in sorted(set(max(1, s) for s in sizes) | {max(1, sizes[-1] * 2)}):
-        candidates.append((f"{k} hottest runs of {L} keys packed into their own leaves", hot_leaf_starts(w, L, k, max_leaves)))
+        candidates.append(
+            (f"{k} hottest runs of {L} keys packed into their own leaves", hot_leaf_starts(w, L, k, max_leaves))
+        )
     for name, starts in candidates:
         if starts is None or starts.size > max_leaves:
             continue
@@ -55,7 +59,7 @@ def balanced_bplus_layout(hist: Histogram, uniform: Layout, pages: list[int] | N
         if int(cand.depths().max()) != height or evaluate(cand, hist).expected_page_reads > height + 1e-9:
             continue
         misses = pinned_misses(cand, hist, sizes)
-        if all(m <= b + 1e-12 for m, b in zip(misses, base)) and sum(misses) < best_score:
+        if all(m <= b + 1e-12 for m, b in zip(misses, base, strict=False)) and sum(misses) < best_score:
             best, best_score, how = cand, sum(misses), name
     return best, sizes, how
 
@@ -90,6 +94,7 @@ def _groupings_list(count: int, F: int, height: int) -> list:
 
 def _splits(count: int, F: int):
     """Ordered splits of count leaves into 2..F non-empty groups."""
+
     def rec(left: int, slots: int):
         if slots == 1:
             yield (left,)
@@ -147,7 +152,8 @@ def balanced_miss_bound(hist: Histogram, L: int, F: int, height: int, pool: int,
     misses = reads - (traffic of the B cached pages) / total. With ``one_depth`` (every leaf at
     depth ``height``, as in the balanced shape when the even split has one leaf depth) every
     lookup reads exactly ``height`` pages; otherwise (fanout 2 can force mixed leaf depths) the
-    reads are bounded below by the level bound of :func:`bplus_level_bound`, valid for any tree. A page at depth d covers at most L F^(height-d) keys, so x cached pages at depth d
+    reads are bounded below by the level bound of :func:`bplus_level_bound`, valid for any tree.
+    A page at depth d covers at most L F^(height-d) keys, so x cached pages at depth d
     carry at most min(total, weight of the x L F^(height-d) heaviest keys), at most F^(d-1)
     pages exist there; those caps are concave in x, so giving the B pages one by one to the
     depth with the largest gain maximises their sum, which bounds any real cache's traffic.

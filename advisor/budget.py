@@ -116,5 +116,7 @@ def resolve(spec: BudgetSpec, even: Layout, min_pages: int, min_height: int, pag
         need = pages_note or f"this index needs at least {min_pages}"
         raise SettingInvalid(f"--max-pages {spec.pages} allows {pages} pages; {need}")
     if height is not None and height < min_height:
-        raise SettingInvalid(f"--max-height {spec.height} allows {height} levels; this index needs at least {min_height}")
+        raise SettingInvalid(
+            f"--max-height {spec.height} allows {height} levels; this index needs at least {min_height}"
+        )
     return Budget(pages, height)

@@ -62,8 +62,11 @@ class Replay:
 def replay_access_sequence(layout: Layout, replay: Replay) -> list[np.ndarray]:
     """Per lookup, the pages it reads, root first (as arrays, in log order)."""
     key_page, gap_page = end_pages(layout)
-    stop = np.where(replay.outcomes < replay.n_keys, key_page[np.minimum(replay.outcomes, replay.n_keys - 1)],
-                    gap_page[np.maximum(replay.outcomes - replay.n_keys, 0)])  # fmt: skip
+    stop = np.where(
+        replay.outcomes < replay.n_keys,
+        key_page[np.minimum(replay.outcomes, replay.n_keys - 1)],
+        gap_page[np.maximum(replay.outcomes - replay.n_keys, 0)],
+    )
     return lookup_paths(layout)[stop]
 
 
@@ -89,8 +92,9 @@ def lru_misses(layout: Layout, replay: Replay, sizes: list[int]) -> list[float]:
     return out
 
 
-def pool_figures(uniform: Layout, advised: Layout, hist: Histogram, replay: Replay | None = None,
-                 pages: list[int] | None = None) -> list[dict]:  # fmt: skip
+def pool_figures(
+    uniform: Layout, advised: Layout, hist: Histogram, replay: Replay | None = None, pages: list[int] | None = None
+) -> list[dict]:
     """One row per pool size: pinned (and LRU when a replay is given) misses per lookup, both layouts."""
     sizes = pool_sizes(uniform.pages, pages=pages)
     rows = {

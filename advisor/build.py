@@ -40,8 +40,14 @@ def key_codes(wl: Workload) -> tuple[str, list[bytes], np.ndarray]:
     return codec, codes, np.asarray(res["row"], dtype=np.int64)
 
 
-def build_index(wl: Workload, plan: Plan, path: str | os.PathLike, layout: str = "advised", replace: bool = False,
-                page_size: int | None = None) -> dict:  # fmt: skip
+def build_index(
+    wl: Workload,
+    plan: Plan,
+    path: str | os.PathLike,
+    layout: str = "advised",
+    replace: bool = False,
+    page_size: int | None = None,
+) -> dict:
     """Write one plan's advised or even-split layout as an index file; returns its summary."""
     chosen: Layout = plan.recommended if layout == "advised" else plan.uniform
     size = page_size or plan.page_size
@@ -50,8 +56,14 @@ def build_index(wl: Workload, plan: Plan, path: str | os.PathLike, layout: str =
     predicted = (plan.recommended_cost if layout == "advised" else plan.uniform_cost).expected_page_reads
     codec, codes, rows = key_codes(wl)
     out = write_index(path, chosen, codes, rows, size, codec, wl.key_type, wl.table, wl.key, predicted, replace)
-    return {"path": str(out), "pages": int(chosen.pages), "page_size": int(size), "layout": layout,
-            "model": plan.model, "predicted_page_reads": float(predicted)}  # fmt: skip
+    return {
+        "path": str(out),
+        "pages": int(chosen.pages),
+        "page_size": int(size),
+        "layout": layout,
+        "model": plan.model,
+        "predicted_page_reads": float(predicted),
+    }
 
 
 @dataclass(frozen=True)
@@ -103,7 +115,9 @@ def read_layout_from_file(index: PagedIndex) -> tuple[Layout, list[bytes]]:
 def _replay_values(con, log_sql: str, value_sql: str, weight_sql: str, order: str | None, limit: int | None):
     o = f" ORDER BY {order}" if order else ""
     lim = f" LIMIT {int(limit)}" if limit else ""
-    res = con.execute(f"SELECT {value_sql} AS v, {weight_sql} AS w FROM {log_sql} WHERE {value_sql} IS NOT NULL{o}{lim}")
+    res = con.execute(
+        f"SELECT {value_sql} AS v, {weight_sql} AS w FROM {log_sql} WHERE {value_sql} IS NOT NULL{o}{lim}"
+    )
     while True:
         batch = res.fetchmany(REPLAY_BATCH)
         if not batch:
@@ -111,9 +125,17 @@ def _replay_values(con, log_sql: str, value_sql: str, weight_sql: str, order: st
         yield batch
 
 
-def probe_index(path: str | os.PathLike, database: str | os.PathLike, log: str, log_column: str | None = None,
-                count_column: str | None = None, order_column: str | None = None, limit: int | None = None,
-                pool_pages: int = 0, cold: bool = False) -> ProbeResult:  # fmt: skip
+def probe_index(
+    path: str | os.PathLike,
+    database: str | os.PathLike,
+    log: str,
+    log_column: str | None = None,
+    count_column: str | None = None,
+    order_column: str | None = None,
+    limit: int | None = None,
+    pool_pages: int = 0,
+    cold: bool = False,
+) -> ProbeResult:
     """Replay ``log`` against the index file; counted reads vs the evaluator's prediction."""
     with PagedIndex(path, pool_pages) as index:
         h = index.header
@@ -158,8 +180,18 @@ def probe_index(path: str | os.PathLike, database: str | os.PathLike, log: str, 
         hist = Histogram(hits, gaps)
         predicted = evaluate(layout, hist).expected_page_reads if hist.total > 0 else 0.0
         per = lambda x: x / lookups if lookups else 0.0  # noqa: E731
-        return ProbeResult(lookups, found, lookups - found, per(index.pages_read), predicted, 1e6 * per(seconds), cold,
-                           pool_pages, per(index.pool_misses) if pool_pages else None, int(wrong))  # fmt: skip
+        return ProbeResult(
+            lookups,
+            found,
+            lookups - found,
+            per(index.pages_read),
+            predicted,
+            1e6 * per(seconds),
+            cold,
+            pool_pages,
+            per(index.pool_misses) if pool_pages else None,
+            int(wrong),
+        )
 
 
 def _bisect(codes: list[bytes], code: bytes) -> int:
@@ -172,8 +204,10 @@ def _true_rows(con, h) -> dict[bytes, int]:
     """Each key's row number straight from the table (the check that found keys are right)."""
     tsql = _table_sql(con, h.table)
     k = quote(h.key)
-    res = con.execute(f"SELECT {keycodec.sql_value(h.key_type, k)} AS v, min(rowid)::BIGINT AS row FROM {tsql} "
-                      f"WHERE {k} IS NOT NULL GROUP BY {k}").fetchall()  # fmt: skip
+    res = con.execute(
+        f"SELECT {keycodec.sql_value(h.key_type, k)} AS v, min(rowid)::BIGINT AS row FROM {tsql} "
+        f"WHERE {k} IS NOT NULL GROUP BY {k}"
+    ).fetchall()
     return {keycodec.encode(h.codec, v): int(r) for v, r in res}
 
 

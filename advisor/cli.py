@@ -22,9 +22,9 @@ from rich.progress import BarColumn, Progress, SpinnerColumn, TextColumn, TimeEl
 
 from . import interrupt
 from .advise import PageSettings, Request, analyse, export_paths
-from .demo import DEMO_KEY, DEMO_LOG, DEMO_TABLE, build_demo
 from .atomic import atomic_path
 from .budget import BudgetSpec
+from .demo import DEMO_KEY, DEMO_LOG, DEMO_TABLE, build_demo
 from .errors import AdvisorError, LayoutInvalid, OutputRefused, SettingInvalid
 from .export import check_destination, check_target, write_layout
 from .pagesize import PROFILES, StorageProfile
@@ -72,9 +72,14 @@ def _interrupted() -> None:
 
 def _progress(enabled: bool) -> Progress:
     return Progress(
-        SpinnerColumn(), TextColumn("{task.description}"), BarColumn(), TimeElapsedColumn(),
-        console=Console(stderr=True), transient=True, disable=not enabled,
-    )  # fmt: skip
+        SpinnerColumn(),
+        TextColumn("{task.description}"),
+        BarColumn(),
+        TimeElapsedColumn(),
+        console=Console(stderr=True),
+        transient=True,
+        disable=not enabled,
+    )
 
 
 IN, GEO, BUD, OUT, WL, SOLVE = "Table and log", "Page geometry", "Budget", "Output", "Workload checks", "Solver"
@@ -87,39 +92,185 @@ def _opt(name: str, text: str, panel: str, **kw):
 DatabaseArg = Annotated[Path, typer.Argument(help="DuckDB database file (opened read-only).", metavar="DATABASE")]
 TableOpt = Annotated[str, _opt("--table", "Table holding the indexed key column.", IN, metavar="NAME")]
 KeyOpt = Annotated[str, _opt("--key", "The indexed key column.", IN, metavar="COLUMN")]
-LogOpt = Annotated[Optional[str], _opt("--log", "Lookup log: a table in the database, or a .parquet/.csv file.", IN, metavar="TABLE|FILE")]
-LogColumnOpt = Annotated[Optional[str], _opt("--log-column", "Looked-up value column in the log (default: the key's name).", IN, metavar="COLUMN")]
-CountColumnOpt = Annotated[Optional[str], _opt("--count-column", "Log column with a lookup count per row (pre-aggregated log).", IN, metavar="COLUMN")]
-DistinctOpt = Annotated[bool, _opt("--distinct-keys", "Accept a key column with repeated values: one entry per distinct value.", IN)]
-MemoryOpt = Annotated[Optional[str], _opt("--memory-limit", "Cap DuckDB's memory while reading the log, e.g. 2GB (it spills to disk beyond).", IN, metavar="SIZE")]
-PageSizeOpt = Annotated[Optional[list[int]], _opt("--page-size", "Page size in bytes (repeatable; default 4096, 8192, 16384).", GEO, metavar="BYTES")]
-KppOpt = Annotated[Optional[list[int]], _opt("--keys-per-page", "Capacity c in keys per page, instead of a page size (repeatable).", GEO, metavar="C")]
+LogOpt = Annotated[
+    Optional[str],
+    _opt("--log", "Lookup log: a table in the database, or a .parquet/.csv file.", IN, metavar="TABLE|FILE"),
+]
+LogColumnOpt = Annotated[
+    Optional[str],
+    _opt("--log-column", "Looked-up value column in the log (default: the key's name).", IN, metavar="COLUMN"),
+]
+CountColumnOpt = Annotated[
+    Optional[str],
+    _opt("--count-column", "Log column with a lookup count per row (pre-aggregated log).", IN, metavar="COLUMN"),
+]
+DistinctOpt = Annotated[
+    bool, _opt("--distinct-keys", "Accept a key column with repeated values: one entry per distinct value.", IN)
+]
+MemoryOpt = Annotated[
+    Optional[str],
+    _opt(
+        "--memory-limit",
+        "Cap DuckDB's memory while reading the log, e.g. 2GB (it spills to disk beyond).",
+        IN,
+        metavar="SIZE",
+    ),
+]
+PageSizeOpt = Annotated[
+    Optional[list[int]],
+    _opt("--page-size", "Page size in bytes (repeatable; default 4096, 8192, 16384).", GEO, metavar="BYTES"),
+]
+KppOpt = Annotated[
+    Optional[list[int]],
+    _opt("--keys-per-page", "Capacity c in keys per page, instead of a page size (repeatable).", GEO, metavar="C"),
+]
 HeaderOpt = Annotated[int, _opt("--page-header", "Bytes per page kept for the header.", GEO, metavar="BYTES")]
 RecordOpt = Annotated[int, _opt("--record-pointer", "Bytes per record pointer.", GEO, metavar="BYTES")]
 ChildOpt = Annotated[int, _opt("--child-pointer", "Bytes per child-page pointer.", GEO, metavar="BYTES")]
-KeyBytesOpt = Annotated[Optional[float], _opt("--key-bytes", "Bytes per key (default: from the column type or measured).", GEO, metavar="BYTES")]
-ModelOpt = Annotated[str, _opt("--model", "Index structure: btree (keys in every page), bplus (keys only in leaves) or both side by side.", GEO, metavar="btree|bplus|both")]
-FanoutOpt = Annotated[Optional[int], _opt("--fanout", "bplus: children per internal page, with --keys-per-page (which then sets the leaf capacity).", GEO, min=2, metavar="F")]
+KeyBytesOpt = Annotated[
+    Optional[float],
+    _opt("--key-bytes", "Bytes per key (default: from the column type or measured).", GEO, metavar="BYTES"),
+]
+ModelOpt = Annotated[
+    str,
+    _opt(
+        "--model",
+        "Index structure: btree (keys in every page), bplus (keys only in leaves) or both side by side.",
+        GEO,
+        metavar="btree|bplus|both",
+    ),
+]
+FanoutOpt = Annotated[
+    Optional[int],
+    _opt(
+        "--fanout",
+        "bplus: children per internal page, with --keys-per-page (which then sets the leaf capacity).",
+        GEO,
+        min=2,
+        metavar="F",
+    ),
+]
 FillOpt = Annotated[float, _opt("--fill-factor", "bplus: share of each leaf page filled (0..1].", GEO, metavar="SHARE")]
-TruncateOpt = Annotated[bool, _opt("--truncate-separators", "bplus, string keys: shorten separators to the shortest prefix that still separates two leaves.", GEO)]
-MaxPagesOpt = Annotated[str, _opt("--max-pages", "Most pages a layout may use: even (the even split's count), a ratio such as 1.25x, a page count, or none.", BUD, metavar="SPEC")]
-MaxHeightOpt = Annotated[str, _opt("--max-height", "Most levels a layout may have: even, even+K, a number, or none.", BUD, metavar="SPEC")]
-FrontierOpt = Annotated[bool, _opt("--frontier/--no-frontier", "Also plan each page size at 1.1x to 2x the pages and with no page limit.", BUD)]
+TruncateOpt = Annotated[
+    bool,
+    _opt(
+        "--truncate-separators",
+        "bplus, string keys: shorten separators to the shortest prefix that still separates two leaves.",
+        GEO,
+    ),
+]
+MaxPagesOpt = Annotated[
+    str,
+    _opt(
+        "--max-pages",
+        "Most pages a layout may use: even (the even split's count), a ratio such as 1.25x, a page count, or none.",
+        BUD,
+        metavar="SPEC",
+    ),
+]
+MaxHeightOpt = Annotated[
+    str, _opt("--max-height", "Most levels a layout may have: even, even+K, a number, or none.", BUD, metavar="SPEC")
+]
+FrontierOpt = Annotated[
+    bool,
+    _opt("--frontier/--no-frontier", "Also plan each page size at 1.1x to 2x the pages and with no page limit.", BUD),
+]
 JsonOpt = Annotated[bool, _opt("--json", "Print one JSON object on stdout instead of the report.", OUT)]
-ExportOpt = Annotated[Optional[Path], _opt("--export", "Write the recommended pages and their keys (.csv, .json, .parquet, .duckdb).", OUT, metavar="FILE")]
-ExportForOpt = Annotated[Optional[int], _opt("--export-for", "Export only the plan for this page size (or keys per page).", OUT, metavar="SIZE")]
+ExportOpt = Annotated[
+    Optional[Path],
+    _opt(
+        "--export", "Write the recommended pages and their keys (.csv, .json, .parquet, .duckdb).", OUT, metavar="FILE"
+    ),
+]
+ExportForOpt = Annotated[
+    Optional[int],
+    _opt("--export-for", "Export only the plan for this page size (or keys per page).", OUT, metavar="SIZE"),
+]
 ForceOpt = Annotated[bool, _opt("--force", "Replace an existing output file.", OUT)]
 SvgOpt = Annotated[Optional[Path], _opt("--svg", "Also save the whole report as an SVG picture.", OUT, metavar="FILE")]
 HtmlOpt = Annotated[Optional[Path], _opt("--html", "Also save the whole report as an HTML page.", OUT, metavar="FILE")]
-PoolOpt = Annotated[Optional[list[int]], _opt("--pool-pages", "Buffer pool size in pages (repeatable; default 0.1% to 10% of the index).", WL, min=1, metavar="PAGES")]
-OrderOpt = Annotated[Optional[str], _opt("--order-column", "Log column giving lookup order (time or sequence): enables the LRU replay.", WL, metavar="COLUMN")]
-ReplayOpt = Annotated[int, _opt("--replay-limit", "Replay at most this many lookups (the earliest).", WL, min=1, metavar="N")]
-StorageOpt = Annotated[str, _opt("--storage", "Storage profile for the page-size choice: nvme, sata-ssd, network-disk, hdd, or LATENCY_US,MB_PER_S.", WL, metavar="PROFILE")]
-PoolBytesOpt = Annotated[Optional[int], _opt("--pool-bytes", "Buffer pool bytes for the page-size choice (default: 1% of the index).", WL, min=1, metavar="BYTES")]
-HoldoutOpt = Annotated[float, _opt("--holdout", "With --order-column: share of the latest lookups held out to judge a plan fitted on the rest (0 turns it off).", WL, min=0.0, max=0.9, metavar="SHARE")]
-ScanOpt = Annotated[Optional[str], _opt("--scan-to", "Log column with a range scan's upper bound; rows where it is set scan from the looked-up value to it.", WL, metavar="COLUMN")]
-SmoothOpt = Annotated[float, _opt("--smoothing", "Blend the fitted histogram with uniform weight: 0 none .. 1 all uniform.", SOLVE, min=0.0, max=1.0, metavar="ALPHA")]
-ExactOpt = Annotated[float, _opt("--exact-seconds", "Run the exact optimiser when it should finish within this many seconds per page size.", SOLVE, min=0.0, metavar="SECONDS")]
+PoolOpt = Annotated[
+    Optional[list[int]],
+    _opt(
+        "--pool-pages",
+        "Buffer pool size in pages (repeatable; default 0.1% to 10% of the index).",
+        WL,
+        min=1,
+        metavar="PAGES",
+    ),
+]
+OrderOpt = Annotated[
+    Optional[str],
+    _opt(
+        "--order-column",
+        "Log column giving lookup order (time or sequence): enables the LRU replay.",
+        WL,
+        metavar="COLUMN",
+    ),
+]
+ReplayOpt = Annotated[
+    int, _opt("--replay-limit", "Replay at most this many lookups (the earliest).", WL, min=1, metavar="N")
+]
+StorageOpt = Annotated[
+    str,
+    _opt(
+        "--storage",
+        "Storage profile for the page-size choice: nvme, sata-ssd, network-disk, hdd, or LATENCY_US,MB_PER_S.",
+        WL,
+        metavar="PROFILE",
+    ),
+]
+PoolBytesOpt = Annotated[
+    Optional[int],
+    _opt(
+        "--pool-bytes",
+        "Buffer pool bytes for the page-size choice (default: 1% of the index).",
+        WL,
+        min=1,
+        metavar="BYTES",
+    ),
+]
+HoldoutOpt = Annotated[
+    float,
+    _opt(
+        "--holdout",
+        "With --order-column: share of the latest lookups held out to judge a plan fitted on the rest (0 turns it off).",
+        WL,
+        min=0.0,
+        max=0.9,
+        metavar="SHARE",
+    ),
+]
+ScanOpt = Annotated[
+    Optional[str],
+    _opt(
+        "--scan-to",
+        "Log column with a range scan's upper bound; rows where it is set scan from the looked-up value to it.",
+        WL,
+        metavar="COLUMN",
+    ),
+]
+SmoothOpt = Annotated[
+    float,
+    _opt(
+        "--smoothing",
+        "Blend the fitted histogram with uniform weight: 0 none .. 1 all uniform.",
+        SOLVE,
+        min=0.0,
+        max=1.0,
+        metavar="ALPHA",
+    ),
+]
+ExactOpt = Annotated[
+    float,
+    _opt(
+        "--exact-seconds",
+        "Run the exact optimiser when it should finish within this many seconds per page size.",
+        SOLVE,
+        min=0.0,
+        metavar="SECONDS",
+    ),
+]
 
 
 def save_pictures(run: dict, svg: Path | None, html: Path | None, replace: bool) -> None:
@@ -136,8 +287,23 @@ def save_pictures(run: dict, svg: Path | None, html: Path | None, replace: bool)
                 console.save_html(str(tmp), clear=False)
 
 
-def _run(database, table, key, log, request: Request, as_json, export, export_for, force, log_column=None,
-         count_column=None, distinct_keys=False, memory_limit=None, svg=None, html=None):  # fmt: skip
+def _run(
+    database,
+    table,
+    key,
+    log,
+    request: Request,
+    as_json,
+    export,
+    export_for,
+    force,
+    log_column=None,
+    count_column=None,
+    distinct_keys=False,
+    memory_limit=None,
+    svg=None,
+    html=None,
+):
     """Open, analyse, export, render: the whole command, with no figures computed here."""
     if export is not None:
         check_destination(export)
@@ -161,7 +327,9 @@ def _run(database, table, key, log, request: Request, as_json, export, export_fo
             targets_out = export_paths(export, result.plans, export_for)
             for _, path in targets_out:
                 check_target(path, force)
-            run["exports"] = [str(write_layout(wl, plan.recommended, path, replace=force)) for plan, path in targets_out]
+            run["exports"] = [
+                str(write_layout(wl, plan.recommended, path, replace=force)) for plan, path in targets_out
+            ]
         run["timings"] = {"histogram_seconds": round(t_hist, 3), "total_seconds": round(time.perf_counter() - t0, 3)}
     if as_json:
         print(json.dumps(run, indent=2, default=str))
@@ -178,7 +346,9 @@ def parse_storage(text: str) -> StorageProfile:
     try:
         lat, bw = (float(x) for x in text.split(","))
     except ValueError:
-        raise SettingInvalid(f"--storage must be one of {', '.join(PROFILES)} or LATENCY_US,MB_PER_S, got {text!r}") from None
+        raise SettingInvalid(
+            f"--storage must be one of {', '.join(PROFILES)} or LATENCY_US,MB_PER_S, got {text!r}"
+        ) from None
     if lat < 0 or bw <= 0:
         raise SettingInvalid("--storage latency must be >= 0 and bandwidth > 0")
     return StorageProfile("custom", lat, bw)
@@ -226,13 +396,49 @@ def recommend_cmd(
     """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
     with _guard():
         _check_model(model, keys_per_page, fanout)
-        settings = PageSettings(list(page_size or []), list(keys_per_page or []), page_header, record_pointer,
-                                child_pointer, key_bytes, model, fill_factor)  # fmt: skip
-        request = Request(settings, smoothing, fanout, truncate_separators, list(pool_pages or []) or None, order_column,
-                          replay_limit, holdout, scan_to, parse_storage(storage), pool_bytes, exact_seconds,
-                          BudgetSpec(max_pages, max_height), show_frontier)  # fmt: skip
-        _run(database, table, key, log, request, as_json, export, export_for, force, log_column, count_column,
-             distinct_keys, memory_limit, svg, html)  # fmt: skip
+        settings = PageSettings(
+            list(page_size or []),
+            list(keys_per_page or []),
+            page_header,
+            record_pointer,
+            child_pointer,
+            key_bytes,
+            model,
+            fill_factor,
+        )
+        request = Request(
+            settings,
+            smoothing,
+            fanout,
+            truncate_separators,
+            list(pool_pages or []) or None,
+            order_column,
+            replay_limit,
+            holdout,
+            scan_to,
+            parse_storage(storage),
+            pool_bytes,
+            exact_seconds,
+            BudgetSpec(max_pages, max_height),
+            show_frontier,
+        )
+        _run(
+            database,
+            table,
+            key,
+            log,
+            request,
+            as_json,
+            export,
+            export_for,
+            force,
+            log_column,
+            count_column,
+            distinct_keys,
+            memory_limit,
+            svg,
+            html,
+        )
 
 
 def _check_model(model: str, keys_per_page, fanout) -> None:
@@ -247,12 +453,24 @@ def build_cmd(
     database: DatabaseArg,
     table: TableOpt,
     key: KeyOpt,
-    out: Annotated[Path, _opt("--out", "The index file to write (refused if it exists, unless --force).", OUT, metavar="FILE")],
+    out: Annotated[
+        Path, _opt("--out", "The index file to write (refused if it exists, unless --force).", OUT, metavar="FILE")
+    ],
     log: LogOpt = None,
     log_column: LogColumnOpt = None,
     count_column: CountColumnOpt = None,
-    page_size: Annotated[Optional[int], _opt("--page-size", "Page size in bytes of the file (default 4096).", GEO, metavar="BYTES")] = None,
-    keys_per_page: Annotated[Optional[int], _opt("--keys-per-page", "Capacity c instead of the geometry formula (the file still needs --page-size).", GEO, metavar="C")] = None,
+    page_size: Annotated[
+        Optional[int], _opt("--page-size", "Page size in bytes of the file (default 4096).", GEO, metavar="BYTES")
+    ] = None,
+    keys_per_page: Annotated[
+        Optional[int],
+        _opt(
+            "--keys-per-page",
+            "Capacity c instead of the geometry formula (the file still needs --page-size).",
+            GEO,
+            metavar="C",
+        ),
+    ] = None,
     page_header: HeaderOpt = PageSettings.page_header,
     record_pointer: RecordOpt = PageSettings.record_pointer,
     child_pointer: ChildOpt = PageSettings.child_pointer,
@@ -260,7 +478,15 @@ def build_cmd(
     model: Annotated[str, _opt("--model", "Index structure: btree or bplus.", GEO, metavar="btree|bplus")] = "btree",
     fanout: FanoutOpt = None,
     fill_factor: FillOpt = 1.0,
-    layout: Annotated[str, _opt("--layout", "Which layout to write: advised or even (the even split, to compare).", OUT, metavar="advised|even")] = "advised",
+    layout: Annotated[
+        str,
+        _opt(
+            "--layout",
+            "Which layout to write: advised or even (the even split, to compare).",
+            OUT,
+            metavar="advised|even",
+        ),
+    ] = "advised",
     max_pages: MaxPagesOpt = "even",
     max_height: MaxHeightOpt = "even",
     smoothing: SmoothOpt = 0.0,
@@ -283,10 +509,24 @@ def build_cmd(
         if out.exists() and not force:
             raise OutputRefused(f"{out} exists; pass --force to replace it")
         size = page_size or 4096
-        settings = PageSettings([] if keys_per_page else [size], [keys_per_page] if keys_per_page else [], page_header,
-                                record_pointer, child_pointer, key_bytes, model, fill_factor)  # fmt: skip
-        request = Request(settings, smoothing, fanout, exact_seconds=exact_seconds, budget=BudgetSpec(max_pages, max_height),
-                          frontier=False)  # fmt: skip
+        settings = PageSettings(
+            [] if keys_per_page else [size],
+            [keys_per_page] if keys_per_page else [],
+            page_header,
+            record_pointer,
+            child_pointer,
+            key_bytes,
+            model,
+            fill_factor,
+        )
+        request = Request(
+            settings,
+            smoothing,
+            fanout,
+            exact_seconds=exact_seconds,
+            budget=BudgetSpec(max_pages, max_height),
+            frontier=False,
+        )
         with load_workload(database, table, key, log, log_column, count_column, distinct_keys, memory_limit) as wl:
             plan = plan_one(wl, request)
             summary = build_index(wl, plan, out, layout, force, size)
@@ -297,20 +537,41 @@ def build_cmd(
                 f"Wrote {summary['path']}: {summary['pages']:,} pages of {summary['page_size']:,} bytes "
                 f"({summary['layout']} {summary['model']} layout), predicted {summary['predicted_page_reads']:.3f} page reads "
                 "per lookup. Measure it with: advisor probe FILE DATABASE --log LOG"
-            )  # fmt: skip
+            )
 
 
 @app.command("probe")
 def probe_cmd(
     index_file: Annotated[Path, typer.Argument(help="An index file written by advisor build.", metavar="FILE")],
     database: DatabaseArg,
-    log: Annotated[str, _opt("--log", "Lookup log to replay: a table in the database, or a .parquet/.csv file.", IN, metavar="TABLE|FILE")],
+    log: Annotated[
+        str,
+        _opt(
+            "--log", "Lookup log to replay: a table in the database, or a .parquet/.csv file.", IN, metavar="TABLE|FILE"
+        ),
+    ],
     log_column: LogColumnOpt = None,
     count_column: CountColumnOpt = None,
-    order_column: Annotated[Optional[str], _opt("--order-column", "Replay the log in this column's order (default: as stored).", IN, metavar="COLUMN")] = None,
-    limit: Annotated[Optional[int], _opt("--limit", "Replay at most this many log rows.", IN, min=1, metavar="N")] = None,
-    pool_pages: Annotated[int, _opt("--pool-pages", "An LRU pool of this many pages in front of the file (0: every page visit is a read).", WL, min=0, metavar="PAGES")] = 0,
-    cold: Annotated[bool, _opt("--cold", "Drop the file from the operating system's page cache before the replay.", WL)] = False,
+    order_column: Annotated[
+        Optional[str],
+        _opt("--order-column", "Replay the log in this column's order (default: as stored).", IN, metavar="COLUMN"),
+    ] = None,
+    limit: Annotated[
+        Optional[int], _opt("--limit", "Replay at most this many log rows.", IN, min=1, metavar="N")
+    ] = None,
+    pool_pages: Annotated[
+        int,
+        _opt(
+            "--pool-pages",
+            "An LRU pool of this many pages in front of the file (0: every page visit is a read).",
+            WL,
+            min=0,
+            metavar="PAGES",
+        ),
+    ] = 0,
+    cold: Annotated[
+        bool, _opt("--cold", "Drop the file from the operating system's page cache before the replay.", WL)
+    ] = False,
     as_json: JsonOpt = False,
 ) -> None:
     """Replay a log against an index file: page reads counted against the model's prediction."""
@@ -328,10 +589,14 @@ def probe_cmd(
 
 @app.command("demo")
 def demo_cmd(
-    directory: Annotated[Optional[Path], typer.Option("--dir", help="Where to build the demo database (default: the user cache).")] = None,
+    directory: Annotated[
+        Optional[Path], typer.Option("--dir", help="Where to build the demo database (default: the user cache).")
+    ] = None,
     seed: Annotated[int, typer.Option("--seed", help="Seed of the generated workload.")] = 7,
     keys: Annotated[int, typer.Option("--keys", help="Number of catalogue keys.", min=1, max=2_000_000)] = 200_000,
-    lookups: Annotated[int, typer.Option("--lookups", help="Number of logged lookups.", min=0, max=20_000_000)] = 1_000_000,
+    lookups: Annotated[
+        int, typer.Option("--lookups", help="Number of logged lookups.", min=0, max=20_000_000)
+    ] = 1_000_000,
     page_size: PageSizeOpt = None,
     keys_per_page: KppOpt = None,
     as_json: JsonOpt = False,
@@ -351,7 +616,9 @@ def demo_cmd(
         if model != "btree" and keys_per_page:
             raise SettingInvalid("the demo's B+-tree plans take page sizes, not --keys-per-page")
         settings = PageSettings(list(page_size or []), list(keys_per_page or []), model=model)
-        request = Request(settings, order_column="lookup_seq", replay_limit=300_000, budget=BudgetSpec(max_pages, max_height))
+        request = Request(
+            settings, order_column="lookup_seq", replay_limit=300_000, budget=BudgetSpec(max_pages, max_height)
+        )
         _run(db, DEMO_TABLE, DEMO_KEY, DEMO_LOG, request, as_json, export, None, force, svg=svg, html=html)
 
 

@@ -61,7 +61,9 @@ def build_demo(
     with atomic_path(path, output=False) as tmp:
         con = duckdb.connect(str(tmp))
         con.register("k_in", {"packet_no": packet_no.astype(np.int64), "shelf": shelf.astype(np.int64)})
-        con.execute(f"CREATE TABLE {DEMO_TABLE} AS SELECT packet_no::BIGINT AS packet_no, shelf::INTEGER AS shelf FROM k_in").fetchall()
+        con.execute(
+            f"CREATE TABLE {DEMO_TABLE} AS SELECT packet_no::BIGINT AS packet_no, shelf::INTEGER AS shelf FROM k_in"
+        ).fetchall()
         con.register("l_in", {"seq": np.arange(looked_up.size, dtype=np.int64), "v": looked_up})
         con.execute(
             f"CREATE TABLE {DEMO_LOG} AS SELECT seq AS lookup_seq, "

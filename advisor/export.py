@@ -71,7 +71,8 @@ def _stage(wl: Workload, layout: Layout) -> str:
     return (
         "WITH grouped AS (SELECT m.page_id, list(k.k ORDER BY m.r) AS keys "
         f"FROM advisor_export_members m JOIN {KEYS_TABLE} k ON k.r = m.r GROUP BY m.page_id) "
-        "SELECT p.page_id, p.depth, CASE WHEN p.parent_page_id < 0 THEN NULL ELSE p.parent_page_id END AS parent_page_id, "
+        "SELECT p.page_id, p.depth, "
+        "CASE WHEN p.parent_page_id < 0 THEN NULL ELSE p.parent_page_id END AS parent_page_id, "
         "CASE WHEN p.child_position < 0 THEN NULL ELSE p.child_position END AS child_position, p.key_count, "
         f"{'p.is_leaf, ' if layout.structure == 'bplus' else ''}"
         "g.keys[1] AS first_key, g.keys[-1] AS last_key, g.keys "
@@ -95,7 +96,11 @@ def write_layout(wl: Workload, layout: Layout, path: str | os.PathLike, replace:
                 finally:
                     run_sql(wl.con, f"DETACH {alias}")
             else:
-                opts = {"csv": "FORMAT csv, HEADER true", "json": "FORMAT json, ARRAY true", "parquet": "FORMAT parquet"}[fmt]
+                opts = {
+                    "csv": "FORMAT csv, HEADER true",
+                    "json": "FORMAT json, ARRAY true",
+                    "parquet": "FORMAT parquet",
+                }[fmt]
                 run_sql(wl.con, f"COPY ({select}) TO {sql_string(str(tmp))} ({opts})")
     except duckdb.InterruptException:
         raise KeyboardInterrupt from None
@@ -113,12 +118,15 @@ def read_layout(wl: Workload, path: str | os.PathLike, capacity: int, fanout: in
     ktype = wl.key_type
     if fmt == "csv":
         leafcol = "is_leaf::BOOLEAN AS is_leaf, " if fanout else ""
-        rel = f"(SELECT page_id::BIGINT AS page_id, parent_page_id::BIGINT AS parent_page_id, " \
-              f"child_position::BIGINT AS child_position, {leafcol}keys::{ktype}[] AS keys " \
-              f"FROM read_csv({sql_string(str(path))}, all_varchar=true))"  # fmt: skip
+        rel = (
+            f"(SELECT page_id::BIGINT AS page_id, parent_page_id::BIGINT AS parent_page_id, "
+            f"child_position::BIGINT AS child_position, {leafcol}keys::{ktype}[] AS keys "
+            f"FROM read_csv({sql_string(str(path))}, all_varchar=true))"
+        )
     elif fmt == "json":
         leafcol = "is_leaf, " if fanout else ""
-        rel = f"(SELECT page_id, parent_page_id, child_position, {leafcol}keys::{ktype}[] AS keys FROM read_json({sql_string(str(path))}))"
+        source = f"read_json({sql_string(str(path))})"
+        rel = f"(SELECT page_id, parent_page_id, child_position, {leafcol}keys::{ktype}[] AS keys FROM {source})"
     elif fmt == "parquet":
         rel = f"read_parquet({sql_string(str(path))})"
     else:

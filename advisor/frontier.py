@@ -28,28 +28,38 @@ def frontier(plan: Plan, hist: Histogram, options: PlanOptions, points=FRONTIER_
         if budget_spec == options.budget:
             point = plan  # the run's own plan: not planned twice
         else:
-            point = plan_capacity(hist, plan.keys_per_page, plan.geometry, replace(options, budget=budget_spec),
-                                  known_bounds=plan.bounds)  # fmt: skip
+            # each further point gets a share of the run's exact-solver and re-solve time
+            share = replace(
+                options,
+                budget=budget_spec,
+                exact_seconds=options.exact_seconds / len(points),
+                within_polish_ops=options.within_polish_ops / len(points),
+            )
+            point = plan_capacity(hist, plan.keys_per_page, plan.geometry, share, known_bounds=plan.bounds)
         layout, cost, bound = point.recommended, point.recommended_cost, point.lower_bound
         if best is not None and best[1].expected_page_reads < cost.expected_page_reads:
             layout, cost = best  # a smaller budget's layout fits this one too
         best = (layout, cost)
         size = plan.page_size
-        rows.append({
-            "max_pages_rule": spec,
-            "max_pages": point.budget.max_pages,
-            "max_height": point.budget.max_height,
-            "expected_page_reads": float(cost.expected_page_reads),
-            "saving": (plan.uniform_cost.expected_page_reads - cost.expected_page_reads) / plan.uniform_cost.expected_page_reads
-            if plan.uniform_cost.expected_page_reads > 0 else 0.0,
-            "pages": int(cost.pages),
-            "bytes": int(cost.pages) * size if size else None,
-            "mean_fill": mean_fill(layout),
-            "height": int(cost.height),
-            "p99_page_reads": int(cost.p99_page_reads),
-            "max_page_reads": int(cost.max_page_reads),
-            "lower_bound": float(min(bound, cost.expected_page_reads)),
-        })  # fmt: skip
+        rows.append(
+            {
+                "max_pages_rule": spec,
+                "max_pages": point.budget.max_pages,
+                "max_height": point.budget.max_height,
+                "expected_page_reads": float(cost.expected_page_reads),
+                "saving": (plan.uniform_cost.expected_page_reads - cost.expected_page_reads)
+                / plan.uniform_cost.expected_page_reads
+                if plan.uniform_cost.expected_page_reads > 0
+                else 0.0,
+                "pages": int(cost.pages),
+                "bytes": int(cost.pages) * size if size else None,
+                "mean_fill": mean_fill(layout),
+                "height": int(cost.height),
+                "p99_page_reads": int(cost.p99_page_reads),
+                "max_page_reads": int(cost.max_page_reads),
+                "lower_bound": float(min(bound, cost.expected_page_reads)),
+            }
+        )
     return rows
 
 

@@ -22,12 +22,29 @@ DEFAULT_CHILD_POINTER = 8
 LENGTH_PREFIX = 2
 
 FIXED_WIDTH = {
-    "BOOLEAN": 1, "TINYINT": 1, "UTINYINT": 1, "SMALLINT": 2, "USMALLINT": 2,
-    "INTEGER": 4, "UINTEGER": 4, "BIGINT": 8, "UBIGINT": 8, "HUGEINT": 16, "UHUGEINT": 16,
-    "FLOAT": 4, "DOUBLE": 8, "DATE": 4, "TIME": 8, "TIMESTAMP": 8, "TIMESTAMP_S": 8,
-    "TIMESTAMP_MS": 8, "TIMESTAMP_NS": 8, "TIMESTAMP WITH TIME ZONE": 8, "UUID": 16,
+    "BOOLEAN": 1,
+    "TINYINT": 1,
+    "UTINYINT": 1,
+    "SMALLINT": 2,
+    "USMALLINT": 2,
+    "INTEGER": 4,
+    "UINTEGER": 4,
+    "BIGINT": 8,
+    "UBIGINT": 8,
+    "HUGEINT": 16,
+    "UHUGEINT": 16,
+    "FLOAT": 4,
+    "DOUBLE": 8,
+    "DATE": 4,
+    "TIME": 8,
+    "TIMESTAMP": 8,
+    "TIMESTAMP_S": 8,
+    "TIMESTAMP_MS": 8,
+    "TIMESTAMP_NS": 8,
+    "TIMESTAMP WITH TIME ZONE": 8,
+    "UUID": 16,
     "INTERVAL": 16,
-}  # fmt: skip
+}
 
 
 def decimal_width(type_name: str) -> int:
@@ -72,7 +89,9 @@ class Geometry:
     @property
     def leaf_capacity(self) -> int:
         """B+-tree: entries (key + record pointer) per leaf, at the fill factor."""
-        return int(math.floor((self.page_size - self.page_header) * self.fill_factor / (self.key_bytes + self.record_pointer)))
+        return int(
+            math.floor((self.page_size - self.page_header) * self.fill_factor / (self.key_bytes + self.record_pointer))
+        )
 
     @property
     def fanout(self) -> int:
@@ -84,7 +103,9 @@ class Geometry:
 
     @property
     def untruncated_fanout(self) -> int:
-        return int(math.floor((self.page_size - self.page_header + self.key_bytes) / (self.key_bytes + self.child_pointer)))
+        return int(
+            math.floor((self.page_size - self.page_header + self.key_bytes) / (self.key_bytes + self.child_pointer))
+        )
 
     def formula(self) -> str:
         return (
@@ -93,8 +114,12 @@ class Geometry:
         )
 
     def as_dict(self) -> dict:
-        return asdict(self) | {"keys_per_page": self.capacity, "leaf_capacity": self.leaf_capacity, "fanout": self.fanout,
-                               "untruncated_fanout": self.untruncated_fanout}  # fmt: skip
+        return asdict(self) | {
+            "keys_per_page": self.capacity,
+            "leaf_capacity": self.leaf_capacity,
+            "fanout": self.fanout,
+            "untruncated_fanout": self.untruncated_fanout,
+        }
 
 
 def geometry_for(
@@ -113,10 +138,14 @@ def geometry_for(
         raise SettingInvalid(f"key width must be positive, got {key_bytes:g}")
     if not 0 < fill_factor <= 1:
         raise SettingInvalid(f"fill factor must be in (0, 1], got {fill_factor:g}")
-    g = Geometry(int(page_size), int(page_header), float(key_bytes), int(record_pointer), int(child_pointer), float(fill_factor))
+    g = Geometry(
+        int(page_size), int(page_header), float(key_bytes), int(record_pointer), int(child_pointer), float(fill_factor)
+    )
     if model == "bplus":
         if g.leaf_capacity < 1 or g.fanout < 2:
-            need = max(page_header + (key_bytes + record_pointer) / fill_factor, page_header + key_bytes + 2 * child_pointer)
+            need = max(
+                page_header + (key_bytes + record_pointer) / fill_factor, page_header + key_bytes + 2 * child_pointer
+            )
             raise SettingInvalid(
                 f"page size {page_size} bytes cannot hold a B+-tree leaf entry and two child pointers: "
                 f"the minimum is {int(math.ceil(need))} bytes"

@@ -71,7 +71,7 @@ class Histogram:
         top = np.partition(self.p, self.n - k)[self.n - k :]
         return float(top.sum() / self.hits)
 
-    def smoothed(self, alpha: float) -> "Histogram":
+    def smoothed(self, alpha: float) -> Histogram:
         """Blend with the uniform histogram: (1 - alpha) * weights + alpha * mean weight.
 
         Additive smoothing toward "every key and gap equally likely", one parameter in [0, 1]:
@@ -80,7 +80,9 @@ class Histogram:
         if alpha <= 0 or self.n == 0:
             return self
         mean = self.total / (2 * self.n + 1)
-        return Histogram((1 - alpha) * self.p + alpha * mean, (1 - alpha) * self.q + alpha * mean, self.null_lookups, self.source)
+        return Histogram(
+            (1 - alpha) * self.p + alpha * mean, (1 - alpha) * self.q + alpha * mean, self.null_lookups, self.source
+        )
 
     def summary(self) -> dict:
         """Figures for the report and JSON: sizes, shares and entropy."""

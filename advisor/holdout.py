@@ -13,12 +13,16 @@ from dataclasses import replace
 from .geometry import Geometry
 from .histogram import Histogram
 from .layout import evaluate
-from .planner import saving
-from .planner import PlanOptions, plan_capacity
+from .planner import PlanOptions, plan_capacity, saving
 
 
-def holdout_rows(train: Histogram, test: Histogram, targets: list[tuple[int, Geometry | None]],
-                 smoothings: list[float], base: PlanOptions | None = None) -> list[dict]:  # fmt: skip
+def holdout_rows(
+    train: Histogram,
+    test: Histogram,
+    targets: list[tuple[int, Geometry | None]],
+    smoothings: list[float],
+    base: PlanOptions | None = None,
+) -> list[dict]:
     """One row per capacity and smoothing: reads and savings in sample (train) and held out (test)."""
     rows = []
     for c, g in targets:
@@ -28,9 +32,14 @@ def holdout_rows(train: Histogram, test: Histogram, targets: list[tuple[int, Geo
             ins_u, ins_o = plan.uniform_cost.expected_page_reads, plan.recommended_cost.expected_page_reads
             out_u = evaluate(plan.uniform, test).expected_page_reads
             out_o = evaluate(plan.recommended, test).expected_page_reads
-            rows.append({
-                "keys_per_page": c, "page_size": g.page_size if g else None, "smoothing": alpha, "model": opts.model,
-                "in_sample": {"uniform": ins_u, "optimized": ins_o, "saving": saving(ins_u, ins_o)},
-                "held_out": {"uniform": out_u, "optimized": out_o, "saving": saving(out_u, out_o)},
-            })  # fmt: skip
+            rows.append(
+                {
+                    "keys_per_page": c,
+                    "page_size": g.page_size if g else None,
+                    "smoothing": alpha,
+                    "model": opts.model,
+                    "in_sample": {"uniform": ins_u, "optimized": ins_o, "saving": saving(ins_u, ins_o)},
+                    "held_out": {"uniform": out_u, "optimized": out_o, "saving": saving(out_u, out_o)},
+                }
+            )
     return rows

@@ -30,8 +30,16 @@ STRINGS = {"VARCHAR"}
 EPOCH = dt.date(1970, 1, 1)
 
 
-WIDTH = {"TINYINT": 8, "SMALLINT": 16, "INTEGER": 32, "BIGINT": 64, "UTINYINT": 8, "USMALLINT": 16, "UINTEGER": 32,
-         "UBIGINT": 64}  # fmt: skip
+WIDTH = {
+    "TINYINT": 8,
+    "SMALLINT": 16,
+    "INTEGER": 32,
+    "BIGINT": 64,
+    "UTINYINT": 8,
+    "USMALLINT": 16,
+    "UINTEGER": 32,
+    "UBIGINT": 64,
+}
 
 
 def codec_for(key_type: str) -> str:

@@ -87,7 +87,9 @@ def page_bytes(layout: Layout, codes: list[bytes], rows: np.ndarray, fixed: int)
         count = int(ranks.size)
         slots = kids.get(p, {})
         if bplus and layout.leaf[p]:
-            body = _PAGE.pack(LEAF, count) + keys + struct.pack("<I", next_leaf[p]) + rows[ranks].astype("<u8").tobytes()
+            body = (
+                _PAGE.pack(LEAF, count) + keys + struct.pack("<I", next_leaf[p]) + rows[ranks].astype("<u8").tobytes()
+            )
         elif bplus:
             children = np.array([slots.get(s, 0) for s in range(count + 1)], dtype="<u4")
             body = _PAGE.pack(INTERNAL, count) + keys + children.tobytes()
@@ -98,13 +100,26 @@ def page_bytes(layout: Layout, codes: list[bytes], rows: np.ndarray, fixed: int)
     return out
 
 
-def write_index(path: str | os.PathLike, layout: Layout, codes: list[bytes], rows: np.ndarray, page_size: int,
-                codec: str, key_type: str, table: str, key: str, predicted: float, replace: bool = False) -> Path:  # fmt: skip
+def write_index(
+    path: str | os.PathLike,
+    layout: Layout,
+    codes: list[bytes],
+    rows: np.ndarray,
+    page_size: int,
+    codec: str,
+    key_type: str,
+    table: str,
+    key: str,
+    predicted: float,
+    replace: bool = False,
+) -> Path:
     """Write ``layout`` as a paged index file, atomically; a page that does not fit its bytes is
     a :class:`SettingInvalid` (nothing is written)."""
     path = Path(path)
     if path.is_dir() or not path.parent.exists():
-        raise OutputRefused(f"cannot write {path}: {'a directory' if path.is_dir() else 'its directory does not exist'}")
+        raise OutputRefused(
+            f"cannot write {path}: {'a directory' if path.is_dir() else 'its directory does not exist'}"
+        )
     if path.exists() and not replace:
         raise OutputRefused(f"{path} exists; pass --force to replace it")
     fixed = keycodec.fixed_width(codec)
@@ -115,8 +130,18 @@ def write_index(path: str | os.PathLike, layout: Layout, codes: list[bytes], row
                 f"tree page {p + 1} needs {len(body):,} bytes, more than the {page_size:,}-byte page "
                 f"(keys longer than the sizing assumed? give --key-bytes the longest key, or a larger --page-size)"
             )
-    head = _HEAD.pack(MAGIC, VERSION, page_size, 1 if layout.structure == "bplus" else 0, 0 if fixed else 1, fixed,
-                      len(pages), 1, layout.n_keys, float(predicted)) + _strings(codec, key_type, table, key)  # fmt: skip
+    head = _HEAD.pack(
+        MAGIC,
+        VERSION,
+        page_size,
+        1 if layout.structure == "bplus" else 0,
+        0 if fixed else 1,
+        fixed,
+        len(pages),
+        1,
+        layout.n_keys,
+        float(predicted),
+    ) + _strings(codec, key_type, table, key)
     if len(head) > page_size:
         raise SettingInvalid(f"the header needs {len(head)} bytes, more than the {page_size}-byte page")
     with atomic_path(path) as tmp, open(tmp, "wb") as f:
@@ -139,8 +164,9 @@ def read_header(fd: int) -> Header:
         (ln,) = struct.unpack_from("<H", raw, pos)
         strings.append(raw[pos + 2 : pos + 2 + ln].decode("utf-8"))
         pos += 2 + ln
-    return Header(page_size, "bplus" if structure else "btree", width if enc == 0 else 0, pages, root, keys, predicted,
-                  *strings)  # fmt: skip
+    return Header(
+        page_size, "bplus" if structure else "btree", width if enc == 0 else 0, pages, root, keys, predicted, *strings
+    )
 
 
 @dataclass

@@ -45,15 +45,27 @@ def page_size_table(plans: list[Plan], hist: Histogram, profile: StorageProfile,
             continue
         per_read = profile.read_us(p.page_size)
         pool_pages = pool_bytes // p.page_size
-        misses = pinned_misses(p.recommended, hist, [pool_pages])[0] if pool_pages > 0 else p.recommended_cost.expected_page_reads
-        uni_misses = pinned_misses(p.uniform, hist, [pool_pages])[0] if pool_pages > 0 else p.uniform_cost.expected_page_reads
-        rows.append({
-            "page_size": p.page_size, "keys_per_page": p.keys_per_page, "model": p.model, "read_us": per_read,
-            "optimized_us": p.recommended_cost.expected_page_reads * per_read,
-            "uniform_us": p.uniform_cost.expected_page_reads * per_read,
-            "pool_pages": int(pool_pages),
-            "optimized_with_pool_us": misses * per_read, "uniform_with_pool_us": uni_misses * per_read,
-        })  # fmt: skip
+        misses = (
+            pinned_misses(p.recommended, hist, [pool_pages])[0]
+            if pool_pages > 0
+            else p.recommended_cost.expected_page_reads
+        )
+        uni_misses = (
+            pinned_misses(p.uniform, hist, [pool_pages])[0] if pool_pages > 0 else p.uniform_cost.expected_page_reads
+        )
+        rows.append(
+            {
+                "page_size": p.page_size,
+                "keys_per_page": p.keys_per_page,
+                "model": p.model,
+                "read_us": per_read,
+                "optimized_us": p.recommended_cost.expected_page_reads * per_read,
+                "uniform_us": p.uniform_cost.expected_page_reads * per_read,
+                "pool_pages": int(pool_pages),
+                "optimized_with_pool_us": misses * per_read,
+                "uniform_with_pool_us": uni_misses * per_read,
+            }
+        )
     return {
         "profile": {"name": profile.name, "latency_us": profile.latency_us, "bandwidth_mb_s": profile.bandwidth_mb_s},
         "pool_bytes": int(pool_bytes),
@@ -64,11 +76,20 @@ def page_size_table(plans: list[Plan], hist: Histogram, profile: StorageProfile,
 def best_choice(rows: list[dict]) -> dict:
     """The fastest page size (and structure), without and with the pool."""
     if not rows:
-        return {"best_page_size": None, "best_page_size_with_pool": None, "best_model": None, "best_model_with_pool": None}
+        return {
+            "best_page_size": None,
+            "best_page_size_with_pool": None,
+            "best_model": None,
+            "best_model_with_pool": None,
+        }
     a = min(rows, key=lambda r: r["optimized_us"])
     b = min(rows, key=lambda r: r["optimized_with_pool_us"])
-    return {"best_page_size": a["page_size"], "best_page_size_with_pool": b["page_size"],
-            "best_model": a["model"], "best_model_with_pool": b["model"]}  # fmt: skip
+    return {
+        "best_page_size": a["page_size"],
+        "best_page_size_with_pool": b["page_size"],
+        "best_model": a["model"],
+        "best_model_with_pool": b["model"],
+    }
 
 
 def default_pool_bytes(plans: list[Plan]) -> int:

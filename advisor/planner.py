@@ -8,15 +8,40 @@ the baseline). Every figure comes from :func:`advisor.layout.evaluate`.
 from __future__ import annotations
 
 import time
+from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Callable
 
+from .budget import Budget, BudgetSpec, resolve
+from .errors import SettingInvalid
 from .geometry import Geometry
 from .histogram import Histogram
-from .budget import Budget, BudgetSpec, resolve
 from .layout import Cost, Layout, check_layout, evaluate
-from .errors import SettingInvalid
-from .optimize import balanced_layout, exact_seconds, exact_work, heaviest_first_layout, integer_weights, hot_first_layout, lower_bounds, polish, solve_exact, uniform_layout
+from .optimize import (
+    balanced_layout,
+    exact_seconds,
+    exact_work,
+    heaviest_first_layout,
+    hot_first_layout,
+    integer_weights,
+    lower_bounds,
+    polish,
+    solve_exact,
+    uniform_layout,
+)
+from .optimize.bplus import (
+    balanced_bplus,
+    bplus_chain,
+    bplus_height,
+    bplus_level_bound,
+    bplus_window_bound,
+    bplus_work,
+    full_leaves_balanced,
+    full_leaves_exact,
+    hot_first_bplus,
+    leaf_count,
+    solve_bplus_exact,
+    uniform_bplus,
+)
 from .optimize.bplus_constrained import bplus_constrained_work, solve_bplus_within
 from .optimize.bplus_within import bplus_within_layout, hot_leaf_candidates
 from .optimize.constrained import constrained_bytes, constrained_work, solve_within
@@ -25,11 +50,6 @@ from .optimize.recut import recut
 from .optimize.refine import EVALUATIONS, polish_within
 from .optimize.uniform import min_height
 from .optimize.within import fewest_pages, within_budget_layout
-from .optimize.bplus import (
-    balanced_bplus, bplus_chain, bplus_height, bplus_level_bound, bplus_window_bound, bplus_work, full_leaves_balanced, full_leaves_exact, hot_first_bplus,
-    leaf_count,
-    solve_bplus_exact, uniform_bplus,
-)  # fmt: skip
 
 OPS_PER_SECOND = 3e8  # element operations of the float64 B+ DP per second, measured on this machine kind
 EXACT_SECONDS = 5.0  # run the exact DP when it should take about 5 s or less
@@ -57,6 +77,7 @@ def near_candidates(hist: Histogram, c: int, model: str = "btree", fanout: int =
     yield "hot-first, one level more at the root", lambda: hot_first_layout(hist, c, 1)
     yield "hot-first, one level more everywhere", lambda: hot_first_layout(hist, c, 1, everywhere=True)
     yield "heaviest keys first", lambda: heaviest_first_layout(hist, c)
+
 
 PROOF_TOLERANCE = 1e-9
 LOOSE_BUDGET = 1.5  # page budgets from this many times the even split's pages also try the unconstrained builders
@@ -118,6 +139,9 @@ class PlanOptions:
     fanout: int = 0  # bplus with a direct capacity: children per internal page
     check: bool = True
     budget: BudgetSpec = field(default_factory=BudgetSpec)  # default: the even split's pages and height
+    within_polish_ops: float = 1e9  # estimated work of exact re-solves within the budget (the estimate runs
+    # 10-50x above the measured time: n = 1,000 took 0.2 s), and the most one subtree may take:
+    within_subtree_ops: float = 5e8
 
 
 def plan_capacity(
@@ -265,12 +289,19 @@ def _within(fit: Histogram, c: int, F: int, uni: Layout, budget: Budget, opts: P
             ranked.append((evaluate(cand, fit).expected_page_reads, name, cand))
     ranked.sort(key=lambda x: x[0])
     best_value, method, best = ranked[0]
-    if opts.polish_ops > 0 and not bplus:
+    if opts.within_polish_ops > 0 and not bplus:
         for _value, name, cand in ranked[:POLISH_TOP]:
             if cand is uni:
                 continue
             step(f"exact re-solve of subtrees within the budget ({name})")
-            polished = polish_within(cand, fit, budget.max_pages, budget.max_height, opts.polish_ops / POLISH_TOP)
+            polished = polish_within(
+                cand,
+                fit,
+                budget.max_pages,
+                budget.max_height,
+                opts.within_polish_ops / POLISH_TOP,
+                opts.within_subtree_ops,
+            )
             v = evaluate(polished, fit).expected_page_reads
             if v < best_value and budget.allows(polished):
                 best_value, method, best = v, name + " + exact subtrees", polished
@@ -287,8 +318,10 @@ def budget_candidates(fit: Histogram, c: int, F: int, uni: Layout, budget: Budge
         pages = budget.max_pages if budget.max_pages is not None else n
         for h in sorted({top, max(min_height(n, c), top - 1)}, reverse=True):
             for tries in (1, 2, 4):
-                yield (f"hot keys lifted within the budget ({h} levels, {tries}c offered)",
-                       lambda h=h, tries=tries: within_budget_layout(fit, c, pages, h, tries))  # fmt: skip
+                yield (
+                    f"hot keys lifted within the budget ({h} levels, {tries}c offered)",
+                    lambda h=h, tries=tries: within_budget_layout(fit, c, pages, h, tries),
+                )
     else:
         even_height = int(uni.depths().max())
         top = budget.max_height if budget.max_height is not None else even_height + 1
@@ -296,8 +329,10 @@ def budget_candidates(fit: Histogram, c: int, F: int, uni: Layout, budget: Budge
         for starts in hot_leaf_candidates(fit, c, F, pages):
             label = "full leaves" if starts.size == leaf_count(n, c) else f"{starts.size:,} leaves, hot runs apart"
             for h in sorted({top, max(bplus_height(n, c, F), top - 1)}, reverse=True):
-                yield (f"hot leaves near the root within the budget ({label}, {h} levels)",
-                       lambda s=starts, h=h: bplus_within_layout(fit, c, F, pages, h, s) or uni)  # fmt: skip
+                yield (
+                    f"hot leaves near the root within the budget ({label}, {h} levels)",
+                    lambda s=starts, h=h: bplus_within_layout(fit, c, F, pages, h, s) or uni,
+                )
     if budget.max_pages is None or budget.max_pages >= LOOSE_BUDGET * uni.pages:
         # the unconstrained constructions use many more pages than the even split; below a
         # loose budget they never fit, so they are not built

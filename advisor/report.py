@@ -81,7 +81,8 @@ def _size(nbytes) -> str:
 def plans_table(run: dict) -> Table:
     models = {p.get("model") for p in run["plans"]}
     what = {frozenset({"bplus"}): "B+-tree, c = keys per leaf", frozenset({"btree"}): "c = keys per page"}.get(
-        frozenset(models), "c = keys per page; c B+ = keys per leaf of a B+-tree")
+        frozenset(models), "c = keys per page; c B+ = keys per leaf of a B+-tree"
+    )
     t = Table(title=f"Page reads per lookup: even split vs advised layout ({what})", title_justify="left")
     for name in ("page bytes", "c", "even split", "advised", "saved", "lower bound", "gap", "optimal"):
         t.add_column(name, justify="left" if name == "optimal" else "right")
@@ -98,8 +99,10 @@ def plans_table(run: dict) -> Table:
             _pct(p["certified_gap"]),
             "proven" if p["proven_optimal"] else "bounded",
         )
-    t.caption = ("gap = (advised - lower bound) / lower bound: the advised layout is at most this far above the best "
-                 "layout within the budget. optimal: proven, or bounded (no proof of optimality; the gap bounds it)")  # fmt: skip
+    t.caption = (
+        "gap = (advised - lower bound) / lower bound: the advised layout is at most this far above the best "
+        "layout within the budget. optimal: proven, or bounded (no proof of optimality; the gap bounds it)"
+    )
     t.caption_justify = "left"
     return t
 
@@ -121,9 +124,11 @@ def size_table(run: dict) -> Table:
             f"{u['p99_page_reads']}→{o['p99_page_reads']}",
             f"{u['max_page_reads']}→{o['max_page_reads']}",
         )
-    t.caption = ("≤: the budget the advised layout was held to (--max-pages, --max-height; default: "
-                 "the even split's own). size: K/M/G = 2^10/2^20/2^30 bytes. p99, worst: page reads of the 99th-"
-                 "percentile and of the costliest lookup")  # fmt: skip
+    t.caption = (
+        "≤: the budget the advised layout was held to (--max-pages, --max-height; default: "
+        "the even split's own). size: K/M/G = 2^10/2^20/2^30 bytes. p99, worst: page reads of the 99th-"
+        "percentile and of the costliest lookup"
+    )
     t.caption_justify = "left"
     return t
 
@@ -133,8 +138,10 @@ def frontier_table(run: dict) -> Table | None:
     plans = [p for p in run["plans"] if p.get("frontier")]
     if not plans:
         return None
-    t = Table(title="What more space buys: the advised layout at growing page budgets (same height limit)",
-              title_justify="left")  # fmt: skip
+    t = Table(
+        title="What more space buys: the advised layout at growing page budgets (same height limit)",
+        title_justify="left",
+    )
     for name in ("c", "≤ pages", "pages", "size", "reads", "saved", "worst", "bound", ""):
         t.add_column(name, justify="left" if name == "" else "right", no_wrap=True)
     for p in plans:
@@ -142,12 +149,22 @@ def frontier_table(run: dict) -> Table | None:
         even_reads = p["uniform"]["expected_page_reads"]
         for i, r in enumerate(rows):
             label = r["max_pages_rule"]
-            t.add_row(_c(p) if i == 0 else "", label, f"{r['pages']:,}", _size(r.get("bytes")),
-                      f"{r['expected_page_reads']:.3f}", _pct(r["saving"]), str(r["max_page_reads"]),
-                      f"{r['lower_bound']:.3f}", _bar(r["expected_page_reads"], even_reads, "cyan", FRONTIER_BAR),
-                      end_section=i == len(rows) - 1)  # fmt: skip
-    t.caption = ("≤ pages: even = the even split's page count, 1.1x = 10% more, none = no page limit; the height "
-                 "limit stays. bar: reads per lookup, the even split's a full bar. bound: proven lower bound")  # fmt: skip
+            t.add_row(
+                _c(p) if i == 0 else "",
+                label,
+                f"{r['pages']:,}",
+                _size(r.get("bytes")),
+                f"{r['expected_page_reads']:.3f}",
+                _pct(r["saving"]),
+                str(r["max_page_reads"]),
+                f"{r['lower_bound']:.3f}",
+                _bar(r["expected_page_reads"], even_reads, "cyan", FRONTIER_BAR),
+                end_section=i == len(rows) - 1,
+            )
+    t.caption = (
+        "≤ pages: even = the even split's page count, 1.1x = 10% more, none = no page limit; the height "
+        "limit stays. bar: reads per lookup, the even split's a full bar. bound: proven lower bound"
+    )
     t.caption_justify = "left"
     return t
 
@@ -157,8 +174,10 @@ DEPTH_COLUMNS = 6  # depths shown one by one; deeper ones are summed into one "7
 
 def depth_table(run: dict) -> Table:
     """Share of lookups answered at each depth, even split vs recommended, per plan."""
-    depth = max((max(len(p["optimized"]["answered_at_depth"]), len(p["uniform"]["answered_at_depth"]))
-                 for p in run["plans"]), default=0)  # fmt: skip
+    depth = max(
+        (max(len(p["optimized"]["answered_at_depth"]), len(p["uniform"]["answered_at_depth"])) for p in run["plans"]),
+        default=0,
+    )
     shown = min(depth, DEPTH_COLUMNS)
     t = Table(title="Where lookups end: share answered at each depth, even split → advised", title_justify="left")
     t.add_column("c", justify="right")
@@ -185,12 +204,18 @@ def pool_table(run: dict) -> Table | None:
         return None
     lru = "uniform_lru" in run["plans"][0]["buffer_pool"][0] if run["plans"][0]["buffer_pool"] else False
     t = Table(title="Buffer pool: page misses per lookup (pinned = the B most-read pages kept)", title_justify="left")
-    for name in ("c", "pool pages", "% of index", "pinned even", "pinned advised") + (("LRU even", "LRU advised") if lru else ()):
+    for name in ("c", "pool pages", "% of index", "pinned even", "pinned advised") + (
+        ("LRU even", "LRU advised") if lru else ()
+    ):
         t.add_column(name, justify="right")
     for p in run["plans"]:
         for i, row in enumerate(p["buffer_pool"]):
-            cells = [_c(p) if i == 0 else "", f"{row['pool_pages']:,}", _pct(row["share_of_index"]),
-                     *_pair(row["uniform_pinned"], row["optimized_pinned"], ".3f")]  # fmt: skip
+            cells = [
+                _c(p) if i == 0 else "",
+                f"{row['pool_pages']:,}",
+                _pct(row["share_of_index"]),
+                *_pair(row["uniform_pinned"], row["optimized_pinned"], ".3f"),
+            ]
             if lru:
                 cells += [*_pair(row["uniform_lru"], row["optimized_lru"], ".3f")]
             t.add_row(*cells, end_section=i == len(p["buffer_pool"]) - 1)
@@ -204,20 +229,42 @@ def page_size_panel(run: dict) -> Table | None:
     if not ch:
         return None
     pr = ch["profile"]
-    t = Table(title=f"Page size choice on {pr['name']} storage ({pr['latency_us']:g} µs per read + "
-                    f"{pr['bandwidth_mb_s']:g} MB/s; a rough common-practice profile)", title_justify="left")  # fmt: skip
-    for name in ("page bytes", "µs per read", "even µs", "advised µs", "pool pages", "even µs, pool", "advised µs, pool"):
+    t = Table(
+        title=f"Page size choice on {pr['name']} storage ({pr['latency_us']:g} µs per read + "
+        f"{pr['bandwidth_mb_s']:g} MB/s; a rough common-practice profile)",
+        title_justify="left",
+    )
+    for name in (
+        "page bytes",
+        "µs per read",
+        "even µs",
+        "advised µs",
+        "pool pages",
+        "even µs, pool",
+        "advised µs, pool",
+    ):
         t.add_column(name, justify="right")
     for r in ch["rows"]:
+
         def mark(key: str, r=r) -> str:
-            return " ◀" if (r["page_size"], r.get("model")) == (ch[f"best_page_size{key}"], ch[f"best_model{key}"]) else ""
+            return (
+                " ◀" if (r["page_size"], r.get("model")) == (ch[f"best_page_size{key}"], ch[f"best_model{key}"]) else ""
+            )
 
         label = f"{r['page_size']:,}" + (" B+" if r.get("model") == "bplus" else "")
-        t.add_row(label, f"{r['read_us']:.1f}", f"{r['uniform_us']:.1f}", f"[bold]{r['optimized_us']:.1f}[/bold]{mark('')}",
-                  f"{r['pool_pages']:,}", f"{r['uniform_with_pool_us']:.1f}",
-                  f"[bold]{r['optimized_with_pool_us']:.1f}[/bold]{mark('_with_pool')}")  # fmt: skip
-    t.caption = (f"time per lookup = page reads × (latency + page size / bandwidth); pool: {ch['pool_bytes']:,} bytes "
-                 f"pinned with the most-read pages; ◀ = fastest")  # fmt: skip
+        t.add_row(
+            label,
+            f"{r['read_us']:.1f}",
+            f"{r['uniform_us']:.1f}",
+            f"[bold]{r['optimized_us']:.1f}[/bold]{mark('')}",
+            f"{r['pool_pages']:,}",
+            f"{r['uniform_with_pool_us']:.1f}",
+            f"[bold]{r['optimized_with_pool_us']:.1f}[/bold]{mark('_with_pool')}",
+        )
+    t.caption = (
+        f"time per lookup = page reads × (latency + page size / bandwidth); pool: {ch['pool_bytes']:,} bytes "
+        f"pinned with the most-read pages; ◀ = fastest"
+    )
     t.caption_justify = "left"
     return t
 
@@ -225,17 +272,26 @@ def page_size_panel(run: dict) -> Table | None:
 def balanced_table(run: dict) -> Table | None:
     if not any("balanced" in p for p in run["plans"]):
         return None
-    t = Table(title="Balanced B+-tree (all leaves at one depth): page misses per lookup, pinned pool", title_justify="left")
+    t = Table(
+        title="Balanced B+-tree (all leaves at one depth): page misses per lookup, pinned pool", title_justify="left"
+    )
     for name in ("c", "pool pages", "even split", "balanced", "lower bound", "how"):
         t.add_column(name, justify="left" if name == "how" else "right")
     for p in (p for p in run["plans"] if "balanced" in p):
         bal = p["balanced"]
         for i, r in enumerate(bal["buffer_pool"]):
-            t.add_row(_c(p) if i == 0 else "", f"{r['pool_pages']:,}", *_pair(r["uniform_pinned"], r["balanced_pinned"], ".3f"),
-                      f"{r['lower_bound']:.3f}", bal["method"] if i == 0 else "",
-                      end_section=i == len(bal["buffer_pool"]) - 1)  # fmt: skip
-    t.caption = ("every lookup reads the full height in both; only the cache benefits. Exact for tiny indexes, "
-                 "else near-optimal; lower bound: no balanced tree of this height can miss less")  # fmt: skip
+            t.add_row(
+                _c(p) if i == 0 else "",
+                f"{r['pool_pages']:,}",
+                *_pair(r["uniform_pinned"], r["balanced_pinned"], ".3f"),
+                f"{r['lower_bound']:.3f}",
+                bal["method"] if i == 0 else "",
+                end_section=i == len(bal["buffer_pool"]) - 1,
+            )
+    t.caption = (
+        "every lookup reads the full height in both; only the cache benefits. Exact for tiny indexes, "
+        "else near-optimal; lower bound: no balanced tree of this height can miss less"
+    )
     t.caption_justify = "left"
     return t
 
@@ -244,17 +300,33 @@ def scans_table(run: dict) -> Table | None:
     if not run["plans"] or "range_scans" not in run["plans"][0]:
         return None
     s0 = run["plans"][0]["range_scans"]
-    t = Table(title=f"Point lookups and range scans ({_num(s0['point_lookups'])} lookups, {_num(s0['scans'])} scans)",
-              title_justify="left")  # fmt: skip
-    for name in ("c", "lookup reads even", "advised", "pages per scan even", "advised", "all operations even", "advised"):
+    t = Table(
+        title=f"Point lookups and range scans ({_num(s0['point_lookups'])} lookups, {_num(s0['scans'])} scans)",
+        title_justify="left",
+    )
+    for name in (
+        "c",
+        "lookup reads even",
+        "advised",
+        "pages per scan even",
+        "advised",
+        "all operations even",
+        "advised",
+    ):
         t.add_column(name, justify="right")
     for p in run["plans"]:
         s = p["range_scans"]
         u, o = s["uniform"], s["optimized"]
-        t.add_row(_c(p), *_pair(u["point_lookup_reads"], o["point_lookup_reads"], ".3f"),
-                  *_pair(u["scan_pages"], o["scan_pages"], ".2f"), *_pair(u["combined"], o["combined"], ".3f"))
-    t.caption = ("A scan reads every page holding a key in its range and every ancestor of those pages, each once. "
-                 "The optimiser counts each scan's first probe as a lookup; it does not pack ranges into fewer pages.")  # fmt: skip
+        t.add_row(
+            _c(p),
+            *_pair(u["point_lookup_reads"], o["point_lookup_reads"], ".3f"),
+            *_pair(u["scan_pages"], o["scan_pages"], ".2f"),
+            *_pair(u["combined"], o["combined"], ".3f"),
+        )
+    t.caption = (
+        "A scan reads every page holding a key in its range and every ancestor of those pages, each once. "
+        "The optimiser counts each scan's first probe as a lookup; it does not pack ranges into fewer pages."
+    )
     t.caption_justify = "left"
     return t
 
@@ -263,14 +335,34 @@ def holdout_table(run: dict) -> Table | None:
     h = run.get("holdout")
     if not h:
         return None
-    t = Table(title=f"Held-out check: fitted on the earliest {100 * (1 - h['fraction']):.0f}% of the log, "
-                    f"judged on the latest {100 * h['fraction']:.0f}%", title_justify="left")  # fmt: skip
-    for name in ("c", "smoothing", "fit: even", "fit: advised", "fit: saved", "later: even", "later: advised", "later: saved"):
+    t = Table(
+        title=f"Held-out check: fitted on the earliest {100 * (1 - h['fraction']):.0f}% of the log, "
+        f"judged on the latest {100 * h['fraction']:.0f}%",
+        title_justify="left",
+    )
+    for name in (
+        "c",
+        "smoothing",
+        "fit: even",
+        "fit: advised",
+        "fit: saved",
+        "later: even",
+        "later: advised",
+        "later: saved",
+    ):
         t.add_column(name, justify="right")
     for r in h["rows"]:
         i, o = r["in_sample"], r["held_out"]
-        t.add_row(_c(r), f"{r['smoothing']:g}", f"{i['uniform']:.3f}", f"{i['optimized']:.3f}",
-                  _pct(i["saving"]), f"{o['uniform']:.3f}", f"{o['optimized']:.3f}", f"[bold]{_pct(o['saving'])}[/bold]")  # fmt: skip
+        t.add_row(
+            _c(r),
+            f"{r['smoothing']:g}",
+            f"{i['uniform']:.3f}",
+            f"{i['optimized']:.3f}",
+            _pct(i["saving"]),
+            f"{o['uniform']:.3f}",
+            f"{o['optimized']:.3f}",
+            f"[bold]{_pct(o['saving'])}[/bold]",
+        )
     t.caption = "page reads per lookup; a large drop from fit to later savings means the plan overfits its sample"
     t.caption_justify = "left"
     return t
@@ -292,8 +384,11 @@ def charts(run: dict) -> Table | None:
     """Bars: share of lookups answered at each depth, and misses per lookup against pool size."""
     if not run["plans"]:
         return None
-    t = Table(title="Bars: share answered at each depth; page misses per lookup by pool size (pinned)",
-              title_justify="left", show_lines=False)
+    t = Table(
+        title="Bars: share answered at each depth; page misses per lookup by pool size (pinned)",
+        title_justify="left",
+        show_lines=False,
+    )
     t.add_column("c", justify="right")
     t.add_column("depth / pool pages", justify="left", no_wrap=True)
     t.add_column("even split", justify="left", no_wrap=True)
@@ -303,15 +398,24 @@ def charts(run: dict) -> Table | None:
         u, o = p["uniform"]["answered_at_depth"], p["optimized"]["answered_at_depth"]
         for d in range(max(len(u), len(o))):
             a, b = (u[d] if d < len(u) else 0.0), (o[d] if d < len(o) else 0.0)
-            t.add_row(_c(p) if first else "", f"depth {d + 1}",
-                      _bar(a, 1.0, "grey58") + Text(f" {_pct(a)}"), _bar(b, 1.0, "green") + Text(f" {_pct(b)}"))  # fmt: skip
+            t.add_row(
+                _c(p) if first else "",
+                f"depth {d + 1}",
+                _bar(a, 1.0, "grey58") + Text(f" {_pct(a)}"),
+                _bar(b, 1.0, "green") + Text(f" {_pct(b)}"),
+            )
             first = False
         rows = p.get("buffer_pool", [])
         top = max([r["uniform_pinned"] for r in rows] + [r["optimized_pinned"] for r in rows] + [1e-12])
         for i, r in enumerate(rows):
             a, b = r["uniform_pinned"], r["optimized_pinned"]
-            t.add_row("", f"pool {r['pool_pages']:,}", _bar(a, top, "grey58") + Text(f" {a:.3f}"),
-                      _bar(b, top, "green") + Text(f" {b:.3f}"), end_section=i == len(rows) - 1)  # fmt: skip
+            t.add_row(
+                "",
+                f"pool {r['pool_pages']:,}",
+                _bar(a, top, "grey58") + Text(f" {a:.3f}"),
+                _bar(b, top, "green") + Text(f" {b:.3f}"),
+                end_section=i == len(rows) - 1,
+            )
     return t
 
 
@@ -332,31 +436,44 @@ def method_notes(run: dict) -> Text:
             cap = _bplus_formula(g) if g else f"{p['keys_per_page']} keys per leaf, fanout {p['fanout']} (given)"
         else:
             cap = f"keys/page = {g and _formula(g) or str(p['keys_per_page']) + ' (given)'}"
-        lines.append(f"c={p['keys_per_page']}: {cap}; method: {p['optimized']['method']}; "
-                     f"bounds: " + ", ".join(f"{BOUND_NAMES.get(k, k)} {v:.3f}" for k, v in p["lower_bounds"].items()))  # fmt: skip
+        lines.append(
+            f"c={p['keys_per_page']}: {cap}; method: {p['optimized']['method']}; "
+            f"bounds: " + ", ".join(f"{BOUND_NAMES.get(k, k)} {v:.3f}" for k, v in p["lower_bounds"].items())
+        )
     if any(p.get("model") == "bplus" for p in run["plans"]):
-        lines.append("Cost model (B+-tree, leaves at any depth): every lookup reads the pages from the root to the leaf "
-                     "covering it; a value between two leaves goes to the left one.")  # fmt: skip
+        lines.append(
+            "Cost model (B+-tree, leaves at any depth): every lookup reads the pages from the root to the leaf "
+            "covering it; a value between two leaves goes to the left one."
+        )
     if any(p.get("model") != "bplus" for p in run["plans"]):
-        lines.append("Cost model: a hit reads every page from the root to the page holding the key; a miss reads "
-                     "pages until it meets an empty child slot.")  # fmt: skip
+        lines.append(
+            "Cost model: a hit reads every page from the root to the page holding the key; a miss reads "
+            "pages until it meets an empty child slot."
+        )
     return Text("\n".join(lines), style="dim")
 
 
 def _bplus_formula(g: dict) -> str:
     sep = g["separator_bytes"] if g.get("separator_bytes") is not None else g["key_bytes"]
-    text = (f"B+-tree leaves: floor(({g['page_size']} - {g['page_header']}) x {g['fill_factor']:g} / ({g['key_bytes']:g} key + "
-            f"{g['record_pointer']} record ptr)) = {g['leaf_capacity']} keys; internal: floor(({g['page_size']} - "
-            f"{g['page_header']} + {sep:g}) / ({sep:g} separator + {g['child_pointer']})) = {g['fanout']} children")  # fmt: skip
+    text = (
+        f"B+-tree leaves: floor(({g['page_size']} - {g['page_header']}) x {g['fill_factor']:g} / "
+        f"({g['key_bytes']:g} key + "
+        f"{g['record_pointer']} record ptr)) = {g['leaf_capacity']} keys; internal: floor(({g['page_size']} - "
+        f"{g['page_header']} + {sep:g}) / ({sep:g} separator + {g['child_pointer']})) = {g['fanout']} children"
+    )
     if g.get("separator_bytes") is not None:
-        text += (f" (suffix truncation: separators {sep:.1f} bytes instead of {g['key_bytes']:g}, "
-                 f"fanout {g['untruncated_fanout']} -> {g['fanout']})")  # fmt: skip
+        text += (
+            f" (suffix truncation: separators {sep:.1f} bytes instead of {g['key_bytes']:g}, "
+            f"fanout {g['untruncated_fanout']} -> {g['fanout']})"
+        )
     return text
 
 
 def _formula(g: dict) -> str:
-    return (f"floor(({g['page_size']} - {g['page_header']} header) / ({g['key_bytes']:g} key + "
-            f"{g['record_pointer']} record ptr + {g['child_pointer']} child ptr)) = {g['keys_per_page']}")  # fmt: skip
+    return (
+        f"floor(({g['page_size']} - {g['page_header']} header) / ({g['key_bytes']:g} key + "
+        f"{g['record_pointer']} record ptr + {g['child_pointer']} child ptr)) = {g['keys_per_page']}"
+    )
 
 
 def export_text(run: dict) -> Text | None:
@@ -371,12 +488,24 @@ def render_run(run: dict) -> Group:
     if run["keys"] == 0:
         parts.append(Text("The table has no keys: there is no index to lay out."))
     elif run["lookups"] - run["null_lookups"] <= 0:
-        parts.append(Text("The log holds no lookups of non-NULL values: nothing to optimise; "
-                          "the even split is shown as is.", style="yellow"))  # fmt: skip
+        parts.append(
+            Text(
+                "The log holds no lookups of non-NULL values: nothing to optimise; the even split is shown as is.",
+                style="yellow",
+            )
+        )
     if run["plans"]:
         parts += [plans_table(run), size_table(run), depth_table(run)]
         # optional sections: each returns None when the run holds none of its figures
-        for section in (frontier_table, pool_table, balanced_table, scans_table, holdout_table, page_size_panel, charts):
+        for section in (
+            frontier_table,
+            pool_table,
+            balanced_table,
+            scans_table,
+            holdout_table,
+            page_size_panel,
+            charts,
+        ):
             table = section(run)
             if table is not None:
                 parts.append(table)
@@ -402,7 +531,9 @@ def render_probe(res: dict, path: str) -> Group:
         ("operating-system cache dropped first", "yes" if res["cold"] else "no"),
     ]
     if res.get("pool_misses_per_lookup") is not None:
-        rows.append((f"pool misses per lookup (LRU, {res['pool_pages']:,} pages)", f"{res['pool_misses_per_lookup']:.4f}"))
+        rows.append(
+            (f"pool misses per lookup (LRU, {res['pool_pages']:,} pages)", f"{res['pool_misses_per_lookup']:.4f}")
+        )
     rows.append(("found keys with a wrong row number", f"{res['wrong_rows']:,}"))
     for a, b in rows:
         t.add_row(a, b)

@@ -57,8 +57,13 @@ def _count(x: float) -> int | float:
     return int(x) if x.is_integer() and abs(x) < 2**63 else x
 
 
-def run_dict(hist: Histogram, plans: list[Plan], inputs: dict, exports: list[str] | None = None,
-             pools: list[list[dict]] | None = None) -> dict:  # fmt: skip
+def run_dict(
+    hist: Histogram,
+    plans: list[Plan],
+    inputs: dict,
+    exports: list[str] | None = None,
+    pools: list[list[dict]] | None = None,
+) -> dict:
     s = hist.summary()
     return {
         "schema_version": SCHEMA_VERSION,

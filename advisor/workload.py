@@ -86,7 +86,7 @@ class Workload:
     def close(self) -> None:
         self.con.close()
 
-    def __enter__(self) -> "Workload":
+    def __enter__(self) -> Workload:
         return self
 
     def __exit__(self, *exc) -> None:
@@ -141,7 +141,9 @@ def _log_source(con, log: str) -> tuple[str, str]:
     try:
         con.execute(f"SELECT * FROM {rel} LIMIT 0").fetchall()
     except duckdb.Error as e:
-        raise InputInvalid(f"log file {log} is not readable as {'Parquet' if 'parquet' in rel else 'CSV'}: {_first_line(str(e))}") from None
+        raise InputInvalid(
+            f"log file {log} is not readable as {'Parquet' if 'parquet' in rel else 'CSV'}: {_first_line(str(e))}"
+        ) from None
     return rel, f"file {log}"
 
 
@@ -196,7 +198,7 @@ def _load(con, table, key, log, log_column, count_column, distinct_keys) -> Work
         con,
         f"CREATE OR REPLACE TEMP TABLE {KEYS_TABLE} AS "
         f"SELECT {k} AS k, (row_number() OVER (ORDER BY {k}) - 1)::BIGINT AS r "
-        f"FROM (SELECT DISTINCT {k} FROM {tsql} WHERE {k} IS NOT NULL)"
+        f"FROM (SELECT DISTINCT {k} FROM {tsql} WHERE {k} IS NOT NULL)",
     )
     rows, null_keys = con.execute(f"SELECT count(*), count(*) FILTER (WHERE {k} IS NULL) FROM {tsql}").fetchall()[0]
     n = con.execute(f"SELECT count(*) FROM {KEYS_TABLE}").fetchall()[0][0]
@@ -274,8 +276,23 @@ def _checked_count(con, lsql: str, col: str, ctype: str, lname: str) -> str:
     """SQL for the count column after rejecting NULL, NaN, negative or fractional counts."""
     c = quote(col)
     t = ctype.upper()
-    if not (t in ("TINYINT", "SMALLINT", "INTEGER", "BIGINT", "HUGEINT", "UTINYINT", "USMALLINT",
-                  "UINTEGER", "UBIGINT", "FLOAT", "DOUBLE") or t.startswith("DECIMAL")):
+    if not (
+        t
+        in (
+            "TINYINT",
+            "SMALLINT",
+            "INTEGER",
+            "BIGINT",
+            "HUGEINT",
+            "UTINYINT",
+            "USMALLINT",
+            "UINTEGER",
+            "UBIGINT",
+            "FLOAT",
+            "DOUBLE",
+        )
+        or t.startswith("DECIMAL")
+    ):
         raise InputInvalid(f"count column {col!r} in {lname} has type {ctype}; a number is needed")
     floaty = t in ("FLOAT", "DOUBLE")
     nan = f"count(*) FILTER (WHERE isnan({c}))" if floaty else "0"
@@ -302,7 +319,8 @@ def load_replay(wl: Workload, order_column: str, limit: int = 1_000_000):
     w = f"({wl.weight_sql})::BIGINT"
     n = wl.hist.n
     rows = wl.con.execute(
-        f"WITH lg AS (SELECT {v} AS v, {o} AS o, {w} AS w FROM {lsql} WHERE {v} IS NOT NULL ORDER BY {o} LIMIT {int(limit)}) "
+        f"WITH lg AS (SELECT {v} AS v, {o} AS o, {w} AS w FROM {lsql} WHERE {v} IS NOT NULL "
+        f"ORDER BY {o} LIMIT {int(limit)}) "
         f"SELECT CASE WHEN lg.v = kk.k THEN kk.r ELSE {n} + coalesce(kk.r, -1) + 1 END AS id, lg.w "
         f"FROM lg ASOF LEFT JOIN {KEYS_TABLE} kk ON lg.v >= kk.k ORDER BY lg.o"
     ).fetchnumpy()
@@ -316,8 +334,10 @@ def load_scans(wl: Workload, scan_to: str) -> tuple[np.ndarray, np.ndarray, np.n
     and the histogram of the point lookups alone (rows where it is NULL)."""
     lsql, hi = wl.log_sql, wl.log_column(scan_to)
     v, w = quote(wl.info["log_column"]), wl.weight_sql
-    scans = (f"SELECT {v} AS lo, {hi} AS hi, sum({w})::DOUBLE AS w FROM {lsql} "
-             f"WHERE {v} IS NOT NULL AND {hi} IS NOT NULL GROUP BY ALL")  # fmt: skip
+    scans = (
+        f"SELECT {v} AS lo, {hi} AS hi, sum({w})::DOUBLE AS w FROM {lsql} "
+        f"WHERE {v} IS NOT NULL AND {hi} IS NOT NULL GROUP BY ALL"
+    )
     rows = wl.con.execute(
         f"WITH s AS ({scans}), "
         f"a AS (SELECT s.*, CASE WHEN kk.k = s.lo THEN kk.r ELSE coalesce(kk.r, -1) + 1 END AS first "
@@ -340,16 +360,19 @@ def truncated_separator_bytes(wl: Workload, leaf_capacity: int) -> float:
     suffices (suffix truncation, common practice for string keys); plus the 2-byte length prefix.
     """
     L = int(leaf_capacity)
-    rows = wl.con.execute(
-        f"SELECT a.k::BLOB, b.k::BLOB FROM {KEYS_TABLE} a JOIN {KEYS_TABLE} b ON b.r = a.r + 1 "
-        f"WHERE b.r % {L} = 0"
-    ).fetchall() if wl.key_type.upper().startswith(("VARCHAR", "BLOB")) else []
+    rows = (
+        wl.con.execute(
+            f"SELECT a.k::BLOB, b.k::BLOB FROM {KEYS_TABLE} a JOIN {KEYS_TABLE} b ON b.r = a.r + 1 WHERE b.r % {L} = 0"
+        ).fetchall()
+        if wl.key_type.upper().startswith(("VARCHAR", "BLOB"))
+        else []
+    )
     if not rows:
         return wl.key_bytes
     widths = []
     for left, right in rows:
         lcp = 0
-        for x, y in zip(left, right):
+        for x, y in zip(left, right, strict=False):
             if x != y:
                 break
             lcp += 1

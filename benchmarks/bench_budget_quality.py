@@ -33,8 +33,10 @@ def main() -> None:
     args = ap.parse_args()
     n = args.n
     print(f"n = {n:,}; budget: the even split's pages and levels; reads = expected page reads per lookup")
-    head = (f"{'workload':<20} {'c':>3} {'pages':>6} {'lv':>3} {'even':>7} {'exact':>7} {'proven':>6} {'exact s':>7} "
-            f"{'near':>7} {'near s':>6} {'near %':>7} {'saved %':>7}")  # fmt: skip
+    head = (
+        f"{'workload':<20} {'c':>3} {'pages':>6} {'lv':>3} {'even':>7} {'exact':>7} {'proven':>6} {'exact s':>7} "
+        f"{'near':>7} {'near s':>6} {'near %':>7} {'saved %':>7}"
+    )
     print(head)
     print("-" * len(head))
     worst = 0.0
@@ -53,9 +55,12 @@ def main() -> None:
             e = evaluate(even, h).expected_page_reads
             above = 100 * (near / ex.expected_page_reads - 1)
             worst = max(worst, above)
-            print(f"{kind:<20} {c:>3} {even.pages:>6} {height:>3} {e:>7.3f} {ex.expected_page_reads:>7.3f} "
-                  f"{str(ex.proven):>6} {t_exact:>7.1f} {near:>7.3f} {t_near:>6.2f} {above:>7.2f} "
-                  f"{100 * (1 - near / e):>7.1f}", flush=True)  # fmt: skip
+            print(
+                f"{kind:<20} {c:>3} {even.pages:>6} {height:>3} {e:>7.3f} {ex.expected_page_reads:>7.3f} "
+                f"{str(ex.proven):>6} {t_exact:>7.1f} {near:>7.3f} {t_near:>6.2f} {above:>7.2f} "
+                f"{100 * (1 - near / e):>7.1f}",
+                flush=True,
+            )
     print(f"largest near-optimal excess over the exact point: {worst:.2f}%")
 
 

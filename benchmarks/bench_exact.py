@@ -10,10 +10,10 @@ Workload: Zipf(1.0) hits scattered over the keys, 5% misses, whole counts (total
 from __future__ import annotations
 
 import argparse
-import sys
-import time
 import multiprocessing
 import resource
+import sys
+import time
 from pathlib import Path
 
 import numpy as np
@@ -60,14 +60,20 @@ def main() -> None:
     args = ap.parse_args()
     pairs = [(200, 8), (300, 50), (400, 100)] if args.quick else [(300, 12), (500, 50), (600, 150), (700, 300)]
     print("1) same instances, both solvers (one run each, same process)")
-    print(f"{'n':>6} {'c':>5} {'textbook s':>11} {'fast f64 s':>11} {'ratio':>6} {'fast int32 s':>13} {'ratio':>6} {'optima equal':>13}")
+    print(
+        f"{'n':>6} {'c':>5} {'textbook s':>11} {'fast f64 s':>11} {'ratio':>6} {'fast int32 s':>13} {'ratio':>6} "
+        f"{'optima equal':>13}"
+    )
     for n, c in pairs:
         h = instance(n)
         slow, ts, _ = timed(solve_textbook, h, c)
         flt, tf, _ = timed(solve_exact, h, c, False)
         fast, ti, _ = timed(solve_exact, h, c, True)
         same = slow == flt == fast
-        print(f"{n:>6} {c:>5} {ts:>11.2f} {tf:>11.2f} {ts / tf:>6.1f} {ti:>13.2f} {ts / ti:>6.1f} {str(same):>13}", flush=True)
+        print(
+            f"{n:>6} {c:>5} {ts:>11.2f} {tf:>11.2f} {ts / tf:>6.1f} {ti:>13.2f} {ts / ti:>6.1f} {str(same):>13}",
+            flush=True,
+        )
     n = 600 if args.quick else 2000
     caps = [2, 12, 100] if args.quick else [2, 3, 5, 8, 12, 20, 50, 100, 300, 1000]
     print(f"\n2) fast solver at n = {n:,} (int32 tables)")
@@ -75,10 +81,13 @@ def main() -> None:
     for c in caps:
         h = instance(n)
         res, dt, peak = timed(solve_exact, h, c)
-        print(f"{c:>5} {dt:>8.1f} {peak:>9.0f} {res:>7.3f} {exact_work(n, c)[0] / 1e9:>9.1f} "
-              f"{textbook_work(n, c)[0] / 1e9:>18.1f}", flush=True)  # fmt: skip
+        print(
+            f"{c:>5} {dt:>8.1f} {peak:>9.0f} {res:>7.3f} {exact_work(n, c)[0] / 1e9:>9.1f} "
+            f"{textbook_work(n, c)[0] / 1e9:>18.1f}",
+            flush=True,
+        )
     print("\n3) largest n solved within 60 s (steps of 500, then 250 from 2,000)")
-    for c in ([12] if args.quick else [3, 12, 100]):
+    for c in [12] if args.quick else [3, 12, 100]:
         best, n = 0, 500
         while n <= (1000 if args.quick else 8000):
             _, dt, _ = timed(solve_exact, instance(n), c)

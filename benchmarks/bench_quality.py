@@ -40,15 +40,24 @@ def main() -> None:
     args = ap.parse_args()
     n = args.n
     names = [name for name, _ in near_candidates(Histogram(np.ones(1), np.ones(2)), 1)]
-    abbrev = {"weight-balanced": "bal", "weight-balanced, spread 0.1": "bal.1", "hot-first": "hot",
-              "hot-first, one level more at the root": "hot+1r", "hot-first, one level more everywhere": "hot+1e",
-              "heaviest keys first": "greedy", "weight-balanced, heaviest key near each cut": "balH"}  # fmt: skip
+    abbrev = {
+        "weight-balanced": "bal",
+        "weight-balanced, spread 0.1": "bal.1",
+        "hot-first": "hot",
+        "hot-first, one level more at the root": "hot+1r",
+        "hot-first, one level more everywhere": "hot+1e",
+        "heaviest keys first": "greedy",
+        "weight-balanced, heaviest key near each cut": "balH",
+    }
     short = [abbrev.get(nm, nm[:7]) for nm in names]
     print(f"n = {n:,}; figures are expected page reads / exact optimum - 1, in %")
-    print("columns: " + "; ".join(f"{s} = {nm}" for s, nm in zip(short, names)))
+    print("columns: " + "; ".join(f"{s} = {nm}" for s, nm in zip(short, names, strict=False)))
     print("planner = the planner's pick with the exact DP forbidden; level, runs, entropy = lower bounds")
-    head = f"{'workload':<20} {'c':>3} {'h':>2} {'opt':>6} {'exact s':>7} {'even':>6} " + \
-           " ".join(f"{s:>7}" for s in short) + f" {'planner':>8} {'plan s':>6} {'level':>6} {'runs':>6} {'entropy':>8}"  # fmt: skip
+    head = (
+        f"{'workload':<20} {'c':>3} {'h':>2} {'opt':>6} {'exact s':>7} {'even':>6} "
+        + " ".join(f"{s:>7}" for s in short)
+        + f" {'planner':>8} {'plan s':>6} {'level':>6} {'runs':>6} {'entropy':>8}"
+    )
     print(head)
     print("-" * len(head))
     for kind in WORKLOADS:
@@ -57,7 +66,7 @@ def main() -> None:
             t0 = time.perf_counter()
             opt = solve_exact(h, c).objective
             t_exact = time.perf_counter() - t0
-            rel = lambda x: 100 * (x / opt - 1)  # noqa: E731
+            rel = lambda x, opt=opt: 100 * (x / opt - 1)  # noqa: E731
             cells = [rel(evaluate(build(), h).expected_page_reads) for _, build in near_candidates(h, c)]
             t0 = time.perf_counter()
             plan = plan_capacity(h, c, options=PlanOptions(exact_seconds=0))

@@ -50,16 +50,42 @@ def main() -> None:
     build(db, args.keys, args.rows)
     t_build = time.perf_counter() - t0
     t0 = time.perf_counter()
-    out = subprocess.run([sys.executable, "-c", CHILD, "recommend", str(db), "--table", "t", "--key", "k", "--log", "lg",
-                          "--json", "--page-size", "8192"], check=True, capture_output=True, text=True)  # fmt: skip
+    out = subprocess.run(
+        [
+            sys.executable,
+            "-c",
+            CHILD,
+            "recommend",
+            str(db),
+            "--table",
+            "t",
+            "--key",
+            "k",
+            "--log",
+            "lg",
+            "--json",
+            "--page-size",
+            "8192",
+        ],
+        check=True,
+        capture_output=True,
+        text=True,
+    )
     wall = time.perf_counter() - t0
     peak = int(out.stderr.strip().splitlines()[-1]) / 1024
     run = json.loads(out.stdout)
-    print(f"{'log rows':>12} {'keys':>10} {'build s':>8} {'wall s':>7} {'hist s':>7} {'peak MiB':>9} {'lookups':>12} {'misses':>11}")
-    print(f"{args.rows:>12,} {args.keys:>10,} {t_build:>8.1f} {wall:>7.1f} {run['timings']['histogram_seconds']:>7.1f} "
-          f"{peak:>9.0f} {run['lookups']:>12,.0f} {run['misses']:>11,.0f}")  # fmt: skip
-    print(f"(for scale: the raw looked-up values alone, as int64 in numpy, would be {args.rows * 8 / 2**20:,.0f} MiB;"
-          " the run never builds such an array)")
+    print(
+        f"{'log rows':>12} {'keys':>10} {'build s':>8} {'wall s':>7} {'hist s':>7} {'peak MiB':>9} {'lookups':>12} "
+        f"{'misses':>11}"
+    )
+    print(
+        f"{args.rows:>12,} {args.keys:>10,} {t_build:>8.1f} {wall:>7.1f} {run['timings']['histogram_seconds']:>7.1f} "
+        f"{peak:>9.0f} {run['lookups']:>12,.0f} {run['misses']:>11,.0f}"
+    )
+    print(
+        f"(for scale: the raw looked-up values alone, as int64 in numpy, would be {args.rows * 8 / 2**20:,.0f} MiB;"
+        " the run never builds such an array)"
+    )
 
 
 if __name__ == "__main__":

@@ -17,7 +17,6 @@ from pathlib import Path
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from gen import WORKLOADS, build  # noqa: E402
 
-
 CHILD = """
 import resource, sys
 from advisor.cli import app
@@ -29,15 +28,40 @@ print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss, file=sys.stderr)
 """
 
 
-def run_case(db: Path, model: str = "btree", budget: tuple[str, str] = ("even", "even"),
-             extra: tuple[str, ...] = ("--no-frontier",)) -> tuple[dict, float, float]:
+def run_case(
+    db: Path,
+    model: str = "btree",
+    budget: tuple[str, str] = ("even", "even"),
+    extra: tuple[str, ...] = ("--no-frontier",),
+) -> tuple[dict, float, float]:
     """Run the CLI in a fresh process; returns (JSON, wall seconds, that process's peak MiB)."""
     t0 = time.perf_counter()
     out = subprocess.run(
-        [sys.executable, "-c", CHILD, "recommend", str(db), "--table", "t", "--key", "k", "--log", "lg", "--json",
-         "--model", model, "--max-pages", budget[0], "--max-height", budget[1], *extra],
-        check=True, capture_output=True, text=True,
-    )  # fmt: skip
+        [
+            sys.executable,
+            "-c",
+            CHILD,
+            "recommend",
+            str(db),
+            "--table",
+            "t",
+            "--key",
+            "k",
+            "--log",
+            "lg",
+            "--json",
+            "--model",
+            model,
+            "--max-pages",
+            budget[0],
+            "--max-height",
+            budget[1],
+            *extra,
+        ],
+        check=True,
+        capture_output=True,
+        text=True,
+    )
     wall = time.perf_counter() - t0
     peak_kib = int(out.stderr.strip().splitlines()[-1])
     return json.loads(out.stdout), wall, peak_kib / 1024
@@ -50,13 +74,19 @@ def main() -> None:
     ap.add_argument("--dir", type=Path, default=Path.home() / ".cache" / "advisor-bench")
     ap.add_argument("--workloads", nargs="*", default=list(WORKLOADS))
     ap.add_argument("--model", default="btree", choices=["btree", "bplus"])
-    ap.add_argument("--budgets", nargs="*", default=["even/even", "none/none"],
-                    help="page/height budgets to run, each as PAGES/HEIGHT (as --max-pages / --max-height)")
+    ap.add_argument(
+        "--budgets",
+        nargs="*",
+        default=["even/even", "none/none"],
+        help="page/height budgets to run, each as PAGES/HEIGHT (as --max-pages / --max-height)",
+    )
     args = ap.parse_args()
     print(f"n = {args.keys:,} keys, {args.lookups:,} logged lookups, page sizes 4096/8192/16384, model {args.model}")
-    head = f"{'workload':<20} {'budget':>10} {'c':>5} {'wall s':>7} {'hist s':>7} {'plan s':>7} {'peak MiB':>9} " \
-           f"{'even':>7} {'advised':>8} {'bound':>7} {'gap %':>6} {'saved %':>8} {'pages even':>10} " \
-           f"{'advised':>9} {'lv':>3} {'lv':>3}  method"  # fmt: skip
+    head = (
+        f"{'workload':<20} {'budget':>10} {'c':>5} {'wall s':>7} {'hist s':>7} {'plan s':>7} {'peak MiB':>9} "
+        f"{'even':>7} {'advised':>8} {'bound':>7} {'gap %':>6} {'saved %':>8} {'pages even':>10} "
+        f"{'advised':>9} {'lv':>3} {'lv':>3}  method"
+    )
     print(head)
     print("-" * len(head))
     for kind in args.workloads:

@@ -8,7 +8,14 @@ from pathlib import Path
 import duckdb
 import numpy as np
 
-WORKLOADS = ("zipf0.8-scattered", "zipf1.0-scattered", "zipf1.2-scattered", "zipf1.0-clustered", "uniform", "zipf1.0-misses10")
+WORKLOADS = (
+    "zipf0.8-scattered",
+    "zipf1.0-scattered",
+    "zipf1.2-scattered",
+    "zipf1.0-clustered",
+    "uniform",
+    "zipf1.0-misses10",
+)
 
 
 def zipf_weights(n: int, s: float) -> np.ndarray:

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import bisect
-from functools import lru_cache
+from functools import cache
 from itertools import combinations
 
 import numpy as np
@@ -58,7 +58,7 @@ def brute_force_optimum(p, q, c, root_size=None) -> float:
     def weight(lo, hi):  # keys lo..hi-1 and gaps lo..hi
         return sum(p[lo:hi]) + sum(q[lo : hi + 1])
 
-    @lru_cache(maxsize=None)
+    @cache
     def best(lo, hi):
         if hi == lo:
             return 0.0
@@ -69,7 +69,7 @@ def brute_force_optimum(p, q, c, root_size=None) -> float:
         for size in sizes:
             for roots in combinations(keys, size):
                 edges = (lo - 1,) + roots + (hi,)
-                sub = sum(best(a + 1, b) for a, b in zip(edges[:-1], edges[1:]))
+                sub = sum(best(a + 1, b) for a, b in zip(edges[:-1], edges[1:], strict=False))
                 top = min(top, sub)
         return w + top
 
@@ -92,12 +92,12 @@ def brute_force_bplus(w, L, F) -> float:
     w = tuple(float(x) for x in w)
     n = len(w)
 
-    @lru_cache(maxsize=None)
+    @cache
     def best(lo, hi):
         lam = sum(w[lo:hi])
         options = [lam] if hi - lo <= L else []
 
-        @lru_cache(maxsize=None)
+        @cache
         def parts(a, k):  # cheapest split of a..hi-1 into exactly k runs
             if k == 1:
                 return best(a, hi)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import functools
 import math
 
 import numpy as np
@@ -12,8 +13,15 @@ from hypothesis import strategies as st
 from advisor.histogram import Histogram
 from advisor.layout import check_layout, evaluate
 from advisor.optimize.bplus import (
-    balanced_bplus, bplus_height, bplus_level_bound, bplus_weights, bplus_window_bound, hot_first_bplus, solve_bplus_exact, uniform_bplus,
-)  # fmt: skip
+    balanced_bplus,
+    bplus_height,
+    bplus_level_bound,
+    bplus_weights,
+    bplus_window_bound,
+    hot_first_bplus,
+    solve_bplus_exact,
+    uniform_bplus,
+)
 
 from .conftest import brute_force_bplus, random_hist
 
@@ -108,8 +116,10 @@ def test_bplus_through_the_cli(tmp_path):
     db = tmp_path / "b.duckdb"
     con = duckdb.connect(str(db))
     con.execute("CREATE TABLE t AS SELECT range * 2 AS k FROM range(4000)").fetchall()
-    con.execute("CREATE TABLE lg AS SELECT ((hash(range) % 97) * (hash(range) % 41) * 2 + (range % 9 = 0)::INT)::BIGINT AS k "
-                "FROM range(20000)").fetchall()  # fmt: skip
+    con.execute(
+        "CREATE TABLE lg AS SELECT ((hash(range) % 97) * (hash(range) % 41) * 2 + (range % 9 = 0)::INT)::BIGINT AS k "
+        "FROM range(20000)"
+    ).fetchall()
     con.close()
     runner = CliRunner()
     base = ["recommend", str(db), "--table", "t", "--key", "k", "--log", "lg", "--model", "bplus"]
@@ -162,7 +172,7 @@ def test_balanced_shape_properties(clustered):
     leaves = np.nonzero(layout.leaf)[0]
     assert (layout.depths()[leaves] == height).all()  # every leaf at the even split's depth
     assert evaluate(layout, hist).expected_page_reads == pytest.approx(height)
-    for a, b in zip(pinned_misses(layout, hist, sizes), pinned_misses(uni, hist, sizes)):
+    for a, b in zip(pinned_misses(layout, hist, sizes), pinned_misses(uni, hist, sizes), strict=False):
         assert a <= b + 1e-12
     # the variable-depth optimum (near-optimal here) is no worse than the balanced shape's reads
     from advisor.planner import PlanOptions, plan_capacity
@@ -184,11 +194,27 @@ def test_suffix_truncation_raises_fanout_for_string_keys(tmp_path):
     db = tmp_path / "s.duckdb"
     con = duckdb.connect(str(db))
     # long keys sharing a long prefix, differing early enough that separators stay short
-    con.execute("CREATE TABLE t AS SELECT 'catalogue/section-' || lpad(range::VARCHAR, 6, '0') || '/item-details' AS k "
-                "FROM range(20000)").fetchall()  # fmt: skip
+    con.execute(
+        "CREATE TABLE t AS SELECT 'catalogue/section-' || lpad(range::VARCHAR, 6, '0') || '/item-details' AS k "
+        "FROM range(20000)"
+    ).fetchall()
     con.execute("CREATE TABLE lg AS SELECT k FROM t USING SAMPLE 3000 ROWS").fetchall()
     con.close()
-    base = ["recommend", str(db), "--table", "t", "--key", "k", "--log", "lg", "--model", "bplus", "--json", "--page-size", "4096"]
+    base = [
+        "recommend",
+        str(db),
+        "--table",
+        "t",
+        "--key",
+        "k",
+        "--log",
+        "lg",
+        "--model",
+        "bplus",
+        "--json",
+        "--page-size",
+        "4096",
+    ]
     plain = json.loads(CliRunner().invoke(app, base).stdout)["plans"][0]
     short = json.loads(CliRunner().invoke(app, base + ["--truncate-separators"]).stdout)["plans"][0]
     g = short["geometry"]
@@ -207,12 +233,27 @@ def test_both_structures_side_by_side(tmp_path):
     from advisor.cli import app
 
     runner = CliRunner()
-    res = runner.invoke(app, ["demo", "--dir", str(tmp_path), "--keys", "4000", "--lookups", "30000", "--json",
-                              "--page-size", "4096"])  # fmt: skip
+    res = runner.invoke(
+        app, ["demo", "--dir", str(tmp_path), "--keys", "4000", "--lookups", "30000", "--json", "--page-size", "4096"]
+    )
     assert res.exit_code == 0
     db = next(tmp_path.glob("*.duckdb"))
-    args = ["recommend", str(db), "--table", "packets", "--key", "packet_no", "--log", "desk_lookups", "--page-size", "4096",
-            "--model", "both", "--order-column", "lookup_seq"]  # fmt: skip
+    args = [
+        "recommend",
+        str(db),
+        "--table",
+        "packets",
+        "--key",
+        "packet_no",
+        "--log",
+        "desk_lookups",
+        "--page-size",
+        "4096",
+        "--model",
+        "both",
+        "--order-column",
+        "lookup_seq",
+    ]
     run = json.loads(runner.invoke(app, args + ["--json"]).stdout)
     assert [p["model"] for p in run["plans"]] == ["btree", "bplus"]
     assert "balanced" in run["plans"][1] and "balanced" not in run["plans"][0]
@@ -228,6 +269,7 @@ def test_both_structures_side_by_side(tmp_path):
 def _every_balanced_tree(n, L, F, height):
     """Independent brute force: (leaf runs, nested children) for every B+-tree with all leaves at
     depth ``height``, built straight into page lists and costed by its own traffic count."""
+
     def runs(k):
         if k == 0:
             yield []
@@ -244,7 +286,7 @@ def _every_balanced_tree(n, L, F, height):
         for parts in range(2, min(F, m) + 1):
             for cuts in __import__("itertools").combinations(range(1, m), parts - 1):
                 edges = (0,) + cuts + (m,)
-                groups = [leaves[a:b] for a, b in zip(edges[:-1], edges[1:])]
+                groups = [leaves[a:b] for a, b in zip(edges[:-1], edges[1:], strict=False)]
 
                 def combine(gs):
                     if not gs:
@@ -259,7 +301,7 @@ def _every_balanced_tree(n, L, F, height):
 
     for r in runs(n):
         starts = np.concatenate([[0], np.cumsum(r)]).tolist()
-        leaves = list(zip(starts[:-1], starts[1:]))
+        leaves = list(zip(starts[:-1], starts[1:], strict=False))
         yield from trees(leaves, height)
 
 
@@ -269,7 +311,7 @@ def _traffic(tree, w):
 
     def walk(node):
         if isinstance(node, tuple) and len(node) == 2:
-            out.append(float(sum(w[node[0]:node[1]])))
+            out.append(float(sum(w[node[0] : node[1]])))
             return
         lo, hi, kids = node
         out.append(float(sum(w[lo:hi])))
@@ -304,14 +346,13 @@ def test_balanced_shape_exact_equals_brute_force(data, L, F):
         return [(height * w.sum() - sum(t[:b])) / w.sum() for b in sizes]
 
     every = [misses(t) for t in _every_balanced_tree(n, L, F, height)]
-    allowed = [m for m in every if all(a <= b + 1e-12 for a, b in zip(m, base))]
+    allowed = [m for m in every if all(a <= b + 1e-12 for a, b in zip(m, base, strict=False))]
     assert sum(pinned_misses(layout, hist, sizes)) == pytest.approx(min(sum(m) for m in allowed), abs=1e-12)
     for i, b in enumerate(sizes):  # the bound holds for every balanced tree
         assert balanced_miss_bound(hist, L, F, height, b) <= min(m[i] for m in every) + 1e-12
 
 
 def test_disjoint_runs_dp_matches_brute_force():
-    from functools import lru_cache
 
     from advisor.optimize.bplus import best_disjoint_windows
 
@@ -320,11 +361,13 @@ def test_disjoint_runs_dp_matches_brute_force():
         n, L = int(rng.integers(1, 12)), int(rng.integers(1, 5))
         w = tuple(rng.integers(0, 10, n).astype(float))
 
-        @lru_cache(maxsize=None)
+        @functools.cache
         def best(i, k):
             if i >= n or k == 0:
                 return 0.0
-            return max([best(i + 1, k)] + [sum(w[i:i + ln]) + best(i + ln, k - 1) for ln in range(1, L + 1) if i + ln <= n])
+            return max(
+                [best(i + 1, k)] + [sum(w[i : i + ln]) + best(i + ln, k - 1) for ln in range(1, L + 1) if i + ln <= n]
+            )
 
         M = best_disjoint_windows(np.array(w), L, 4)
         for x in range(M.size):
@@ -341,8 +384,13 @@ def test_exact_int32_tables_equal_float64(n, L, F, seed):
 
 
 @settings(max_examples=40, deadline=None)
-@given(n=st.integers(2, 120), L=st.integers(1, 8), F=st.integers(2, 9), seed=st.integers(0, 10_000),
-       cap=st.sampled_from([1.0, 50.0, 400.0]))  # fmt: skip
+@given(
+    n=st.integers(2, 120),
+    L=st.integers(1, 8),
+    F=st.integers(2, 9),
+    seed=st.integers(0, 10_000),
+    cap=st.sampled_from([1.0, 50.0, 400.0]),
+)
 def test_window_bound_on_key_blocks_stays_below_the_optimum(n, L, F, seed, cap):
     # a tiny work cap forces the block-coarsened disjoint-run DP; it may only over-estimate
     # the answered weight, so the bound stays below the exact optimum

@@ -37,8 +37,14 @@ def _height(layout):
 
 
 @settings(max_examples=60, deadline=None)
-@given(seed=st.integers(0, 10_000), n=st.integers(1, 1500), c=st.integers(1, 40), skew=st.floats(0.0, 1.6),
-       model=st.sampled_from(["btree", "bplus"]), exact=st.sampled_from([0.0, 5.0]))  # fmt: skip
+@given(
+    seed=st.integers(0, 10_000),
+    n=st.integers(1, 1500),
+    c=st.integers(1, 40),
+    skew=st.floats(0.0, 1.6),
+    model=st.sampled_from(["btree", "bplus"]),
+    exact=st.sampled_from([0.0, 5.0]),
+)
 def test_default_run_never_exceeds_the_even_split(seed, n, c, skew, model, exact):
     rng = np.random.default_rng(seed)
     hist = _hist(rng, n, skew)
@@ -84,7 +90,9 @@ def test_budget_check_rejects_a_layout_outside_it():
     check_layout(even, Budget(even.pages, _height(even)))
 
 
-@pytest.mark.parametrize("pages, height", [("0.5x", "even"), ("lots", "even"), ("even", "even-1"), ("even", "0"), ("-3", "even")])
+@pytest.mark.parametrize(
+    "pages, height", [("0.5x", "even"), ("lots", "even"), ("even", "even-1"), ("even", "0"), ("-3", "even")]
+)
 def test_bad_specs_are_refused(pages, height):
     with pytest.raises(SettingInvalid):
         BudgetSpec(pages, height)
@@ -121,14 +129,19 @@ def db(tmp_path_factory):
     path = tmp_path_factory.mktemp("b") / "b.duckdb"
     con = duckdb.connect(str(path))
     con.execute("CREATE TABLE t AS SELECT range * 2 AS k FROM range(900)").fetchall()
-    con.execute("CREATE TABLE lg AS SELECT ((hash(range) % 40) * (hash(range) % 23) * 2)::BIGINT AS k FROM range(6000)").fetchall()
+    con.execute(
+        "CREATE TABLE lg AS SELECT ((hash(range) % 40) * (hash(range) % 23) * 2)::BIGINT AS k FROM range(6000)"
+    ).fetchall()
     con.close()
     return path
 
 
 def _plan(db, *extra):
-    return runner.invoke(app, ["recommend", str(db), "--table", "t", "--key", "k", "--log", "lg", "--keys-per-page", "6", *extra],
-                         env={"COLUMNS": "100"})  # fmt: skip
+    return runner.invoke(
+        app,
+        ["recommend", str(db), "--table", "t", "--key", "k", "--log", "lg", "--keys-per-page", "6", *extra],
+        env={"COLUMNS": "100"},
+    )
 
 
 def test_cli_budget_fields_and_frontier(db):
@@ -147,11 +160,14 @@ def test_cli_budget_fields_and_frontier(db):
     assert loose["optimized"]["expected_page_reads"] <= plan["optimized"]["expected_page_reads"] + 1e-12
 
 
-@pytest.mark.parametrize("args, words", [
-    (["--max-pages", "10"], ["--max-pages", "at least 150"]),
-    (["--max-height", "2"], ["--max-height", "at least 4"]),
-    (["--max-pages", "half"], ["--max-pages must be"]),
-])  # fmt: skip
+@pytest.mark.parametrize(
+    "args, words",
+    [
+        (["--max-pages", "10"], ["--max-pages", "at least 150"]),
+        (["--max-height", "2"], ["--max-height", "at least 4"]),
+        (["--max-pages", "half"], ["--max-pages must be"]),
+    ],
+)
 def test_cli_impossible_or_bad_budget_is_one_line_exit_5(db, args, words):
     res = _plan(db, *args)
     assert res.exit_code == 5, (res.stdout, res.stderr)

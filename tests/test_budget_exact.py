@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from functools import lru_cache
+from functools import cache
 from itertools import combinations
 
 import numpy as np
@@ -24,7 +24,7 @@ def classic_frontier(p, q, c):
     P = np.concatenate([[0.0], np.cumsum(p)])
     Q = np.concatenate([[0.0], np.cumsum(q)])
 
-    @lru_cache(maxsize=None)
+    @cache
     def trees(lo, hi):  # keys lo..hi-1 (0-based): {(pages, height): cost}
         w = float(P[hi] - P[lo] + Q[hi + 1] - Q[lo])
         out: dict = {}
@@ -103,12 +103,12 @@ def bplus_frontier(w, L, F):
     at most L keys, or an internal page over 2..F consecutive parts); independent code."""
     n = len(w)
 
-    @lru_cache(maxsize=None)
+    @cache
     def trees(lo, hi):
         lam = float(sum(w[lo:hi]))
         out = {(1, 1): lam} if hi - lo <= L else {}
 
-        @lru_cache(maxsize=None)
+        @cache
         def parts(a, k):  # a..hi-1 as exactly k parts: {(pages, height): cost}
             if k == 1:
                 return trees(a, hi)

@@ -58,7 +58,7 @@ def test_lru_replay_matches_cachetools(seed):
         sizes = [1, 2, 5, 20, 200]
         ours = lru_misses(layout, replay, sizes)
         path = path_finder(layout)
-        for b, mine in zip(sizes, ours):
+        for b, mine in zip(sizes, ours, strict=False):
             cache = LRUCache(maxsize=b)
             misses = 0
             for i in ids:
@@ -79,6 +79,6 @@ def test_pool_figures_shape_and_monotone():
     assert [r["pool_pages"] for r in rows] == pool_sizes(uni.pages)
     for key in ("uniform_pinned", "optimized_pinned", "uniform_lru", "optimized_lru"):
         vals = [r[key] for r in rows]
-        assert all(a >= b - 1e-12 for a, b in zip(vals, vals[1:]))  # more pool, no more misses
+        assert all(a >= b - 1e-12 for a, b in zip(vals, vals[1:], strict=False))  # more pool, no more misses
     # pinning every page leaves no misses
     assert pinned_misses(uni, hist, [uni.pages])[0] == pytest.approx(0.0, abs=1e-12)

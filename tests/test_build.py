@@ -40,8 +40,9 @@ def dbs(tmp_path_factory):
 
 
 def _build(db, out, table, log, *extra):
-    return runner.invoke(app, ["build", str(db), "--table", table, "--key", "k", "--log", log, "--out", str(out), "--json",
-                               *extra])  # fmt: skip
+    return runner.invoke(
+        app, ["build", str(db), "--table", table, "--key", "k", "--log", log, "--out", str(out), "--json", *extra]
+    )
 
 
 @pytest.mark.parametrize("table", ["ints", "words", "days"])
@@ -84,8 +85,26 @@ def test_even_layout_and_pool(dbs):
     db, root = dbs
     out = root / "even.idx"
     assert _build(db, out, "ints", "lg_ints", "--page-size", "512", "--layout", "even", "--force").exit_code == 0
-    r = json.loads(runner.invoke(app, ["probe", str(out), str(db), "--log", "lg_ints", "--json", "--pool-pages", "4",
-                                       "--cold", "--limit", "5000", "--order-column", "seq"]).stdout)  # fmt: skip
+    r = json.loads(
+        runner.invoke(
+            app,
+            [
+                "probe",
+                str(out),
+                str(db),
+                "--log",
+                "lg_ints",
+                "--json",
+                "--pool-pages",
+                "4",
+                "--cold",
+                "--limit",
+                "5000",
+                "--order-column",
+                "seq",
+            ],
+        ).stdout
+    )
     assert r["lookups"] == 5000 and r["cold"] is True
     assert 0 < r["pool_misses_per_lookup"] < r["page_reads_per_lookup"]
 
@@ -110,8 +129,20 @@ def test_overflowing_page_is_refused_and_nothing_is_written(dbs):
     db, root = dbs
     out = root / "tight.idx"
     # 6-byte keys sized as 1 byte and no page header: every full page overflows its 256 bytes
-    res = _build(db, out, "words", "lg_words", "--page-size", "256", "--key-bytes", "1", "--page-header", "0",
-                 "--child-pointer", "4")
+    res = _build(
+        db,
+        out,
+        "words",
+        "lg_words",
+        "--page-size",
+        "256",
+        "--key-bytes",
+        "1",
+        "--page-header",
+        "0",
+        "--child-pointer",
+        "4",
+    )
     assert res.exit_code == 5 and "needs" in res.stderr and len(res.stderr.strip().splitlines()) == 1
     assert not out.exists() and not list(root.glob(".*partial*"))
 

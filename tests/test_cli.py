@@ -36,8 +36,12 @@ def small_db(tmp_path_factory):
 
 
 def _plan(db, *extra):
-    return runner.invoke(app, ["recommend", str(db), "--table", "items", "--key", "item_no", "--log", "probes", *extra],
-                         env={"COLUMNS": "120"})  # fmt: skip
+    return runner.invoke(
+        app,
+        # the frontier re-plans every page size five times; tests of it live in test_budget.py
+        ["recommend", str(db), "--table", "items", "--key", "item_no", "--log", "probes", "--no-frontier", *extra],
+        env={"COLUMNS": "120"},
+    )
 
 
 def test_report_renders(small_db):
@@ -135,8 +139,9 @@ def test_demo_runs_small(tmp_path):
 
 
 def test_buffer_pool_and_lru_replay(small_db):
-    res = _plan(small_db, "--json", "--keys-per-page", "20", "--order-column", "seq", "--pool-pages", "3",
-                "--pool-pages", "30")  # fmt: skip
+    res = _plan(
+        small_db, "--json", "--keys-per-page", "20", "--order-column", "seq", "--pool-pages", "3", "--pool-pages", "30"
+    )
     run = json.loads(res.stdout)
     (p,) = run["plans"]
     assert [r["pool_pages"] for r in p["buffer_pool"]] == [3, 30]
@@ -164,12 +169,15 @@ def test_public_api_runs_the_main_job(small_db):
     assert set(advisor.__all__) <= set(dir(advisor))
 
 
+@pytest.mark.slow
 def test_exact_seconds_chooses_the_solver(tmp_path):
     db = tmp_path / "small.duckdb"
     con = duckdb.connect(str(db))
     con.execute("CREATE TABLE items AS SELECT range * 3 AS item_no FROM range(400)").fetchall()
-    con.execute("CREATE TABLE probes AS SELECT ((hash(range) % 37) * (hash(range) % 11) * 3)::BIGINT AS item_no "
-                "FROM range(5000)").fetchall()  # fmt: skip
+    con.execute(
+        "CREATE TABLE probes AS SELECT ((hash(range) % 37) * (hash(range) % 11) * 3)::BIGINT AS item_no "
+        "FROM range(5000)"
+    ).fetchall()
     con.close()
     fast = json.loads(_plan(db, "--json", "--keys-per-page", "6", "--exact-seconds", "0").stdout)["plans"][0]
     exact = json.loads(_plan(db, "--json", "--keys-per-page", "6", "--exact-seconds", "60").stdout)["plans"][0]
@@ -184,8 +192,10 @@ def test_export_with_both_structures_writes_one_file_each(small_db, tmp_path):
     assert sorted(p.name for p in tmp_path.iterdir()) == ["x-4096B-bplus.csv", "x-4096B.csv"]
 
 
+@pytest.mark.slow
 def test_demo_with_both_structures(tmp_path):
-    res = runner.invoke(app, ["demo", "--dir", str(tmp_path), "--keys", "3000", "--lookups", "20000", "--json",
-                              "--model", "both"])  # fmt: skip
+    res = runner.invoke(
+        app, ["demo", "--dir", str(tmp_path), "--keys", "3000", "--lookups", "20000", "--json", "--model", "both"]
+    )
     assert res.exit_code == 0, res.stderr
     assert {p["model"] for p in json.loads(res.stdout)["plans"]} == {"btree", "bplus"}

@@ -96,7 +96,10 @@ def test_every_pool_miss_bound_holds_against_brute_force(data, L, F):
         best_any = min(_pinned(t, w, pool) for t in every)
         assert balanced_miss_bound(hist, L, F, height, pool, one_depth=False) <= best_any + 1e-12
         if one_depth and level:
-            assert balanced_miss_bound(hist, L, F, height, pool, one_depth=True) <= min(_pinned(t, w, pool) for t in level) + 1e-12
+            assert (
+                balanced_miss_bound(hist, L, F, height, pool, one_depth=True)
+                <= min(_pinned(t, w, pool) for t in level) + 1e-12
+            )
 
 
 def test_pinned_bound_with_mixed_leaf_depths_reproducer(tmp_path):

@@ -9,7 +9,15 @@ from hypothesis import strategies as st
 
 from advisor.histogram import Histogram
 from advisor.layout import check_layout, evaluate
-from advisor.optimize import forest_chain, integer_weights, hot_first_layout, polish, solve_exact, solve_textbook, uniform_layout
+from advisor.optimize import (
+    forest_chain,
+    hot_first_layout,
+    integer_weights,
+    polish,
+    solve_exact,
+    solve_textbook,
+    uniform_layout,
+)
 
 from .conftest import brute_force_optimum, random_hist, replay_cost
 
@@ -31,8 +39,13 @@ shapes = st.sampled_from(["random", "zeros", "equal", "dominant", "misses-only"]
 
 
 @settings(max_examples=150, deadline=None)
-@given(n=st.integers(1, 60), c=st.integers(1, 70), shape=shapes, seed=st.integers(0, 10_000),
-       scale=st.sampled_from([1.0, 0.37, 4e9]))
+@given(
+    n=st.integers(1, 60),
+    c=st.integers(1, 70),
+    shape=shapes,
+    seed=st.integers(0, 10_000),
+    scale=st.sampled_from([1.0, 0.37, 4e9]),
+)
 def test_fast_solver_equals_textbook(n, c, shape, seed, scale):
     # scale 1: whole counts (int32 tables); 0.37: fractional weights and 4e9: counts too large
     # for int32 (both float64 tables)

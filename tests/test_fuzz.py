@@ -30,7 +30,7 @@ TYPES = {
     "DATE": st.dates(min_value=dt.date(1, 1, 1), max_value=dt.date(9999, 12, 31)),
     "TIMESTAMP": st.datetimes(min_value=dt.datetime(1900, 1, 1), max_value=dt.datetime(2200, 1, 1)),
     "UUID": st.uuids(),
-    "DECIMAL(10,2)": st.decimals(min_value=-10**7, max_value=10**7, places=2, allow_nan=False),
+    "DECIMAL(10,2)": st.decimals(min_value=-(10**7), max_value=10**7, places=2, allow_nan=False),
 }
 
 
@@ -59,7 +59,7 @@ def _insert(con, table, sql_type, values, counts=None):
             con.executemany(f"INSERT INTO {table} VALUES (?::{sql_type})", rows)
     else:
         con.execute(f"CREATE TABLE {table} (k {sql_type}, n BIGINT)").fetchall()
-        rows = [[v, n] for v, n in zip(values, counts)]
+        rows = [[v, n] for v, n in zip(values, counts, strict=False)]
         if rows:
             con.executemany(f"INSERT INTO {table} VALUES (?::{sql_type}, ?)", rows)
 
@@ -72,7 +72,9 @@ def _python(v):
     return v
 
 
-@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow])
+@settings(
+    max_examples=40, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow]
+)
 @given(case=cases())
 def test_random_inputs_through_the_cli(tmp_path_factory, case):
     key_type, keys, log_type, log, counts, distinct, c = case
@@ -87,8 +89,21 @@ def test_random_inputs_through_the_cli(tmp_path_factory, case):
         return  # the generator made a value DuckDB itself refuses; nothing to test
     con.close()
     export = d / "layout.parquet"
-    argv = ["recommend", str(db), "--table", "t", "--key", "k", "--log", "lg", "--json", "--keys-per-page", str(c),
-            "--export", str(export)]  # fmt: skip
+    argv = [
+        "recommend",
+        str(db),
+        "--table",
+        "t",
+        "--key",
+        "k",
+        "--log",
+        "lg",
+        "--json",
+        "--keys-per-page",
+        str(c),
+        "--export",
+        str(export),
+    ]
     if counts is not None:
         argv += ["--count-column", "n"]
     if distinct:
@@ -111,4 +126,6 @@ def test_random_inputs_through_the_cli(tmp_path_factory, case):
             return
         layout = read_layout(wl, export, c)
         check_layout(layout)
-        assert evaluate(layout, wl.hist).expected_page_reads == pytest.approx(p["optimized"]["expected_page_reads"], rel=1e-9)
+        assert evaluate(layout, wl.hist).expected_page_reads == pytest.approx(
+            p["optimized"]["expected_page_reads"], rel=1e-9
+        )

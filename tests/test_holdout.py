@@ -48,8 +48,26 @@ def test_split_adds_up_to_the_whole_log(ordered_db):
 
 
 def test_cli_shows_in_sample_and_held_out(ordered_db):
-    res = CliRunner().invoke(app, ["recommend", str(ordered_db), "--table", "t", "--key", "k", "--log", "lg", "--json",
-                                   "--order-column", "ts", "--keys-per-page", "10", "--smoothing", "0.2"])  # fmt: skip
+    res = CliRunner().invoke(
+        app,
+        [
+            "recommend",
+            str(ordered_db),
+            "--table",
+            "t",
+            "--key",
+            "k",
+            "--log",
+            "lg",
+            "--json",
+            "--order-column",
+            "ts",
+            "--keys-per-page",
+            "10",
+            "--smoothing",
+            "0.2",
+        ],
+    )
     assert res.exit_code == 0, res.stderr
     held = json.loads(res.stdout)["holdout"]
     assert held["fraction"] == 0.2 and held["test_lookups"] == pytest.approx(2000, abs=1)

@@ -8,17 +8,16 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.stats import zipfian
 
+from advisor.budget import BudgetSpec
 from advisor.histogram import Histogram
 from advisor.layout import check_layout, evaluate
 from advisor.optimize import balanced_layout, heaviest_first_layout, lower_bounds, solve_exact, uniform_layout
 from advisor.optimize.recut import recut
-from advisor.budget import BudgetSpec
 from advisor.planner import PlanOptions, plan_capacity
 
+from .conftest import random_hist, replay_cost
 
 NO_LIMIT = BudgetSpec("none", "none")  # the unconstrained optimum, as before budgets
-
-from .conftest import random_hist, replay_cost
 
 
 def _zipf_hist(n, s, seed, misses=0.05, clustered=False):
@@ -56,7 +55,9 @@ def test_planner_without_exact_is_between_bound_and_uniform(s, clustered):
 def test_near_optimal_close_to_exact_where_both_run(c):
     hist = _zipf_hist(250, 1.0, c)
     exact = solve_exact(hist, c).objective
-    near = plan_capacity(hist, c, options=PlanOptions(exact_seconds=0, budget=NO_LIMIT)).recommended_cost.expected_page_reads
+    near = plan_capacity(
+        hist, c, options=PlanOptions(exact_seconds=0, budget=NO_LIMIT)
+    ).recommended_cost.expected_page_reads
     assert exact <= near + 1e-12
     # recorded, not a promise: the weight-balanced path stays within 15% here
     assert near <= exact * 1.15

@@ -22,7 +22,7 @@ def test_time_formula_and_choice():
     plans = [plan_capacity(hist, g.capacity, g) for g in (geometry_for(s, 8) for s in (512, 4096))]
     prof = StorageProfile("t", 100.0, 100.0)  # 100 µs + 10 µs per 1000 bytes
     table = page_size_table(plans, hist, prof, pool_bytes=0)
-    for row, plan in zip(table["rows"], plans):
+    for row, plan in zip(table["rows"], plans, strict=False):
         per_read = 100.0 + plan.page_size / 100e6 * 1e6
         assert row["read_us"] == pytest.approx(per_read)
         assert row["optimized_us"] == pytest.approx(plan.recommended_cost.expected_page_reads * per_read)

@@ -8,10 +8,10 @@ import numpy as np
 from rich.console import Console
 from typer.testing import CliRunner
 
+from advisor.budget import BudgetSpec
 from advisor.bufferpool import pool_figures
 from advisor.cli import app
 from advisor.histogram import Histogram
-from advisor.budget import BudgetSpec
 from advisor.planner import PlanOptions, plan_capacity
 from advisor.report import BAR_WIDTH, render_run
 from advisor.serialize import run_dict
@@ -28,15 +28,17 @@ def _run():
     p[7] = 100.0  # one key takes all traffic: advised puts it at the root
     hist = Histogram(p, np.zeros(51))
     plan = plan_capacity(hist, 2, options=PlanOptions(budget=BudgetSpec("none", "none")))
-    return run_dict(hist, [plan], {"database": "x"}, [], [pool_figures(plan.uniform, plan.recommended, hist, None, [1, 2])])
+    return run_dict(
+        hist, [plan], {"database": "x"}, [], [pool_figures(plan.uniform, plan.recommended, hist, None, [1, 2])]
+    )
 
 
 def test_chart_bars_have_the_right_length():
     run = _run()
     text = _render(run)
     assert run["plans"][0]["optimized"]["answered_at_depth"][0] == 1.0
-    bars = text[text.index("Bars:"):]
-    line = next(l for l in bars.splitlines() if "depth 1 " in l)
+    bars = text[text.index("Bars:") :]
+    line = next(row for row in bars.splitlines() if "depth 1 " in row)
     cells = [c for c in line.split("│") if c.strip()]
     even, advised = cells[-2], cells[-1]
     assert "█" * BAR_WIDTH in advised and "100.0%" in advised  # everything answered at the root
@@ -54,7 +56,19 @@ def test_report_is_stable_at_a_fixed_width():
 def test_svg_and_html_pictures(tmp_path):
     runner = CliRunner()
     svg, html = tmp_path / "r.svg", tmp_path / "r.html"
-    args = ["demo", "--dir", str(tmp_path), "--keys", "2000", "--lookups", "10000", "--svg", str(svg), "--html", str(html)]
+    args = [
+        "demo",
+        "--dir",
+        str(tmp_path),
+        "--keys",
+        "2000",
+        "--lookups",
+        "10000",
+        "--svg",
+        str(svg),
+        "--html",
+        str(html),
+    ]
     res = runner.invoke(app, args)
     assert res.exit_code == 0, res.stderr
     assert svg.read_text().startswith("<svg") and "Traffic" in svg.read_text()

@@ -8,7 +8,6 @@ import os
 import signal
 import subprocess
 import sys
-import time
 from pathlib import Path
 
 import duckdb
@@ -47,22 +46,27 @@ def one_line_error(res, code, *words):
 
 @pytest.fixture
 def basic(tmp_path):
-    return make(tmp_path / "b.duckdb", [
-        "CREATE TABLE t AS SELECT range::INTEGER AS k FROM range(0, 1000, 3)",
-        "CREATE TABLE lg AS SELECT (range % 1100)::INTEGER AS k FROM range(5000)",
-        "CREATE TABLE words AS SELECT 'w' || range AS k FROM range(10)",
-        "CREATE TABLE counted AS SELECT * FROM (VALUES (3, 2.0), (6, -1.0)) v(k, n)",
-        "CREATE TABLE frac AS SELECT * FROM (VALUES (3, 2.5)) v(k, n)",
-        "CREATE TABLE nan AS SELECT * FROM (VALUES (3, 'nan'::DOUBLE)) v(k, n)",
-        "CREATE TABLE nulln AS SELECT * FROM (VALUES (3, NULL::BIGINT)) v(k, n)",
-    ])  # fmt: skip
+    return make(
+        tmp_path / "b.duckdb",
+        [
+            "CREATE TABLE t AS SELECT range::INTEGER AS k FROM range(0, 1000, 3)",
+            "CREATE TABLE lg AS SELECT (range % 1100)::INTEGER AS k FROM range(5000)",
+            "CREATE TABLE words AS SELECT 'w' || range AS k FROM range(10)",
+            "CREATE TABLE counted AS SELECT * FROM (VALUES (3, 2.0), (6, -1.0)) v(k, n)",
+            "CREATE TABLE frac AS SELECT * FROM (VALUES (3, 2.5)) v(k, n)",
+            "CREATE TABLE nan AS SELECT * FROM (VALUES (3, 'nan'::DOUBLE)) v(k, n)",
+            "CREATE TABLE nulln AS SELECT * FROM (VALUES (3, NULL::BIGINT)) v(k, n)",
+        ],
+    )
 
 
 def test_incomparable_log_type_names_both_types(basic):
     one_line_error(plan(basic, log="words"), 4, "VARCHAR", "INTEGER")
 
 
-@pytest.mark.parametrize("table, what", [("counted", "negative"), ("frac", "fractional"), ("nan", "NaN"), ("nulln", "NULL")])
+@pytest.mark.parametrize(
+    "table, what", [("counted", "negative"), ("frac", "fractional"), ("nan", "NaN"), ("nulln", "NULL")]
+)
 def test_bad_count_columns(basic, table, what):
     one_line_error(plan(basic, "--count-column", "n", log=table), 4, what)
 
@@ -98,7 +102,9 @@ def test_empty_table(tmp_path):
 
 
 def test_empty_log_keeps_the_even_split(tmp_path):
-    db = make(tmp_path / "e.duckdb", ["CREATE TABLE t AS SELECT range AS k FROM range(5000)", "CREATE TABLE lg (k BIGINT)"])
+    db = make(
+        tmp_path / "e.duckdb", ["CREATE TABLE t AS SELECT range AS k FROM range(5000)", "CREATE TABLE lg (k BIGINT)"]
+    )
     run = _json(plan(db, "--json"))
     for p in run["plans"]:
         assert p["optimized"]["pages"] == p["uniform"]["pages"] and p["proven_optimal"]
@@ -107,12 +113,15 @@ def test_empty_log_keeps_the_even_split(tmp_path):
 
 
 def test_only_misses_single_key_and_equal_weights(tmp_path):
-    db = make(tmp_path / "m.duckdb", [
-        "CREATE TABLE t AS SELECT range * 2 AS k FROM range(3000)",
-        "CREATE TABLE lg AS SELECT range * 2 + 1 AS k FROM range(3000)",
-        "CREATE TABLE one AS SELECT 42 AS k",
-        "CREATE TABLE flat AS SELECT range * 2 AS k FROM range(3000)",
-    ])  # fmt: skip
+    db = make(
+        tmp_path / "m.duckdb",
+        [
+            "CREATE TABLE t AS SELECT range * 2 AS k FROM range(3000)",
+            "CREATE TABLE lg AS SELECT range * 2 + 1 AS k FROM range(3000)",
+            "CREATE TABLE one AS SELECT 42 AS k",
+            "CREATE TABLE flat AS SELECT range * 2 AS k FROM range(3000)",
+        ],
+    )
     run = _json(plan(db, "--json", "--keys-per-page", "8"))
     assert run["hits"] == 0 and run["misses"] == 3000
     p = run["plans"][0]
@@ -124,10 +133,13 @@ def test_only_misses_single_key_and_equal_weights(tmp_path):
 
 
 def test_duplicates_need_a_flag_and_null_keys_are_counted(tmp_path):
-    db = make(tmp_path / "d.duckdb", [
-        "CREATE TABLE t AS SELECT (range // 2) AS k FROM range(200) UNION ALL SELECT NULL",
-        "CREATE TABLE lg AS SELECT range AS k FROM range(150)",
-    ])  # fmt: skip
+    db = make(
+        tmp_path / "d.duckdb",
+        [
+            "CREATE TABLE t AS SELECT (range // 2) AS k FROM range(200) UNION ALL SELECT NULL",
+            "CREATE TABLE lg AS SELECT range AS k FROM range(150)",
+        ],
+    )
     one_line_error(plan(db), 4, "--distinct-keys")
     run = _json(plan(db, "--json", "--distinct-keys"))
     assert run["keys"] == 100
@@ -135,10 +147,13 @@ def test_duplicates_need_a_flag_and_null_keys_are_counted(tmp_path):
 
 
 def test_odd_strings_set_the_key_width(tmp_path):
-    db = make(tmp_path / "s.duckdb", [
-        "CREATE TABLE t AS SELECT * FROM (VALUES (''), ('Ünïcødé ✓'), ('日本語'), (repeat('x', 3000)), ('a')) v(k)",
-        "CREATE TABLE lg AS SELECT * FROM (VALUES (''), ('日本語'), ('zz'), (NULL)) v(k)",
-    ])  # fmt: skip
+    db = make(
+        tmp_path / "s.duckdb",
+        [
+            "CREATE TABLE t AS SELECT * FROM (VALUES (''), ('Ünïcødé ✓'), ('日本語'), (repeat('x', 3000)), ('a')) v(k)",
+            "CREATE TABLE lg AS SELECT * FROM (VALUES (''), ('日本語'), ('zz'), (NULL)) v(k)",
+        ],
+    )
     run = _json(plan(db, "--json", "--page-size", "65536"))
     kb = run["inputs"]["key_bytes"]
     expected = (0 + len("Ünïcødé ✓".encode()) + len("日本語".encode()) + 3000 + 1) / 5 + 2
@@ -147,16 +162,22 @@ def test_odd_strings_set_the_key_width(tmp_path):
     one_line_error(plan(db, "--page-size", "512"), 5, "minimum is")
 
 
-@pytest.mark.parametrize("key_type, log_type, log_values, hits", [
-    ("INTEGER", "BIGINT", "(1), (2), (99999999999)", 2),
-    ("DATE", "TIMESTAMP", "('2024-01-02 00:00:00'), ('2024-01-02 10:00:00'), ('2023-12-31 00:00:00')", 1),
-])  # fmt: skip
+@pytest.mark.parametrize(
+    "key_type, log_type, log_values, hits",
+    [
+        ("INTEGER", "BIGINT", "(1), (2), (99999999999)", 2),
+        ("DATE", "TIMESTAMP", "('2024-01-02 00:00:00'), ('2024-01-02 10:00:00'), ('2023-12-31 00:00:00')", 1),
+    ],
+)
 def test_comparable_but_different_types(tmp_path, key_type, log_type, log_values, hits):
     first = "'2024-01-01'::DATE + range::INTEGER" if key_type == "DATE" else "range::INTEGER"
-    db = make(tmp_path / "c.duckdb", [
-        f"CREATE TABLE t AS SELECT ({first})::{key_type} AS k FROM range(1, 10)",
-        f"CREATE TABLE lg AS SELECT k::{log_type} AS k FROM (VALUES {log_values}) v(k)",
-    ])  # fmt: skip
+    db = make(
+        tmp_path / "c.duckdb",
+        [
+            f"CREATE TABLE t AS SELECT ({first})::{key_type} AS k FROM range(1, 10)",
+            f"CREATE TABLE lg AS SELECT k::{log_type} AS k FROM (VALUES {log_values}) v(k)",
+        ],
+    )
     run = _json(plan(db, "--json"))
     assert run["hits"] == hits and run["misses"] == 3 - hits
 
@@ -177,9 +198,14 @@ def test_database_is_byte_identical_after_runs(basic, tmp_path):
 
 def test_locked_database(basic):
     holder = subprocess.Popen(
-        [sys.executable, "-c", f"import duckdb, time; c = duckdb.connect({str(basic)!r}); print('ok', flush=True); time.sleep(30)"],
-        stdout=subprocess.PIPE, text=True,
-    )  # fmt: skip
+        [
+            sys.executable,
+            "-c",
+            f"import duckdb, time; c = duckdb.connect({str(basic)!r}); print('ok', flush=True); time.sleep(30)",
+        ],
+        stdout=subprocess.PIPE,
+        text=True,
+    )
     try:
         assert holder.stdout.readline().strip() == "ok"
         one_line_error(plan(basic), 6, "locked")
@@ -192,16 +218,37 @@ def test_locked_database(basic):
 def test_ctrl_c_leaves_no_partial_file(tmp_path, phase):
     """SIGINT sent once the run says it reached a phase (ADVISOR_PAUSE_AT, a test hook that
     waits there): exit 130, the one-line message, no output and no temporary file."""
-    db = make(tmp_path / "c.duckdb", [
-        "CREATE TABLE t AS SELECT range * 3 AS k FROM range(3000)",
-        "CREATE TABLE lg AS SELECT (hash(range) % 9000)::BIGINT AS k FROM range(20000)",
-    ])  # fmt: skip
+    db = make(
+        tmp_path / "c.duckdb",
+        [
+            "CREATE TABLE t AS SELECT range * 3 AS k FROM range(3000)",
+            "CREATE TABLE lg AS SELECT (hash(range) % 9000)::BIGINT AS k FROM range(20000)",
+        ],
+    )
     target = tmp_path / "out.csv"
     proc = subprocess.Popen(
-        [sys.executable, "-m", "advisor", "recommend", str(db), "--table", "t", "--key", "k", "--log", "lg",
-         "--keys-per-page", "16", "--export", str(target)],
-        stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env={**os.environ, "ADVISOR_PAUSE_AT": phase},
-    )  # fmt: skip
+        [
+            sys.executable,
+            "-m",
+            "advisor",
+            "recommend",
+            str(db),
+            "--table",
+            "t",
+            "--key",
+            "k",
+            "--log",
+            "lg",
+            "--keys-per-page",
+            "16",
+            "--export",
+            str(target),
+        ],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+        env={**os.environ, "ADVISOR_PAUSE_AT": phase},
+    )
     assert proc.stderr.readline().strip() == f"advisor: paused at {phase}"
     proc.send_signal(signal.SIGINT)
     out, err = proc.communicate(timeout=60)
@@ -212,10 +259,13 @@ def test_ctrl_c_leaves_no_partial_file(tmp_path, phase):
 
 def test_large_log_is_aggregated_in_duckdb(tmp_path):
     """A 5M-row log (the 50M case lives in benchmarks/bench_robust.py) becomes O(n) arrays."""
-    db = make(tmp_path / "l.duckdb", [
-        "CREATE TABLE t AS SELECT range AS k FROM range(20000)",
-        "CREATE TABLE lg AS SELECT (hash(range) % 25000)::BIGINT AS k FROM range(5000000)",
-    ])  # fmt: skip
+    db = make(
+        tmp_path / "l.duckdb",
+        [
+            "CREATE TABLE t AS SELECT range AS k FROM range(20000)",
+            "CREATE TABLE lg AS SELECT (hash(range) % 25000)::BIGINT AS k FROM range(5000000)",
+        ],
+    )
     with load_workload(db, "t", "k", "lg") as wl:
         assert wl.hist.p.shape == (20000,) and wl.hist.q.shape == (20001,)
         assert wl.hist.total == 5_000_000

@@ -38,7 +38,7 @@ def test_scan_pages_equal_the_walk(seed, c):
     last = np.minimum(299, first + rng.integers(-3, 80, 60))
     for layout in (uniform_layout(300, c), hot_first_layout(hist, c, 1)):
         got = scan_pages(layout, first, last)
-        want = [walked_pages(layout, int(a), int(b)) for a, b in zip(first, last)]
+        want = [walked_pages(layout, int(a), int(b)) for a, b in zip(first, last, strict=False)]
         assert got.tolist() == want
 
 
@@ -55,15 +55,31 @@ def test_scan_reader_and_cli(tmp_path):
     keys = np.arange(500) * 10
     with load_workload(db, "t", "k", "lg") as wl:
         first, last, w, points = load_scans(wl, "k_to")
-    got = {(int(a), int(b)): float(x) for a, b, x in zip(first, last, w)}
+    got = {(int(a), int(b)): float(x) for a, b, x in zip(first, last, w, strict=False)}
     want: dict = {}
     for lo, hi in rows:
         key = (int(np.searchsorted(keys, lo, "left")), int(np.searchsorted(keys, hi, "right")) - 1)
         want[key] = want.get(key, 0.0) + 1.0
     assert got == want
     assert points.total == 3000
-    res = CliRunner().invoke(app, ["recommend", str(db), "--table", "t", "--key", "k", "--log", "lg", "--json",
-                                   "--keys-per-page", "6", "--scan-to", "k_to"])  # fmt: skip
+    res = CliRunner().invoke(
+        app,
+        [
+            "recommend",
+            str(db),
+            "--table",
+            "t",
+            "--key",
+            "k",
+            "--log",
+            "lg",
+            "--json",
+            "--keys-per-page",
+            "6",
+            "--scan-to",
+            "k_to",
+        ],
+    )
     assert res.exit_code == 0, res.stderr
     s = json.loads(res.stdout)["plans"][0]["range_scans"]
     assert s["scans"] == 1000 and s["point_lookups"] == 3000

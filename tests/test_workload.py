@@ -17,7 +17,7 @@ def numpy_histogram(keys, looked_up, counts=None):
     n = len(uniq)
     p, q, nulls = np.zeros(n), np.zeros(n + 1), 0.0
     counts = counts if counts is not None else [1] * len(looked_up)
-    for v, w in zip(looked_up, counts):
+    for v, w in zip(looked_up, counts, strict=False):
         if v is None:
             nulls += w
             continue
@@ -38,7 +38,7 @@ def make_db(path, key_sql_type, keys, log, counts=None):
         con.executemany("INSERT INTO lg VALUES (?)", [[v] for v in log])
     else:
         con.execute(f"CREATE TABLE lg (k {key_sql_type}, n BIGINT)")
-        con.executemany("INSERT INTO lg VALUES (?, ?)", [[v, c] for v, c in zip(log, counts)])
+        con.executemany("INSERT INTO lg VALUES (?, ?)", [[v, c] for v, c in zip(log, counts, strict=False)])
     con.close()
 
 

@@ -68,8 +68,11 @@ def pack_levels(w: np.ndarray, first_depth: int, first_size: int, growth: int) -
 
 def lower_bounds(hist: Histogram, c: int) -> dict[str, float]:
     """Every bound by name; the planner takes the max."""
-    return {"entropy": entropy_bound(hist, c), "level_capacity": level_capacity_bound(hist, c),
-            "root_runs": root_runs_bound(hist, c)}  # fmt: skip
+    return {
+        "entropy": entropy_bound(hist, c),
+        "level_capacity": level_capacity_bound(hist, c),
+        "root_runs": root_runs_bound(hist, c),
+    }
 
 
 def root_runs_bound(hist: Histogram, c: int, heavy: int | None = None) -> float:
@@ -154,7 +157,7 @@ def _runs_dp(v: np.ndarray, adjacent: np.ndarray, c: int) -> np.ndarray:
     inn = np.full(c + 1, -np.inf)
     out = np.full(c + 1, -np.inf)
     out[0] = 0.0
-    for x, adj in zip(v.tolist(), adjacent.tolist()):
+    for x, adj in zip(v.tolist(), adjacent.tolist(), strict=False):
         both = np.maximum(inn, out)
         new_in = np.full(c + 1, -np.inf)
         new_in[1:] = (out if adj else both)[:-1] + x  # a new run starts here

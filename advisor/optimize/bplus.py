@@ -277,7 +277,7 @@ def balanced_bplus(hist: Histogram, L: int, F: int, spread: float = 0.1) -> Layo
         targets = cum[lo] + (cum[hi] - cum[lo]) * np.arange(1, parts) / parts
         cuts = np.unique(np.clip(np.searchsorted(cum[lo + 1 : hi], targets) + lo + 1, lo + 1, hi - 1))
         edges = np.concatenate([[lo], cuts, [hi]]).tolist()
-        return list(zip(edges[:-1], edges[1:])), None
+        return list(zip(edges[:-1], edges[1:], strict=False)), None
 
     return build_bplus_top_down(n, L, F, cut)
 
@@ -388,12 +388,12 @@ def _hot_children(rank: np.ndarray, lo: int, hi: int, F: int, cap: int) -> list[
             edges += [x, x + 1]
         edges.append(hi)
         kids = []
-        for a, z in zip(edges[:-1], edges[1:]):
+        for a, z in zip(edges[:-1], edges[1:], strict=False):
             if z <= a:
                 continue
             pieces = -(-(z - a) // cap)
             bounds = a + (np.arange(pieces + 1) * (z - a)) // pieces
-            kids += list(zip(bounds[:-1].tolist(), bounds[1:].tolist()))
+            kids += list(zip(bounds[:-1].tolist(), bounds[1:].tolist(), strict=False))
         if len(kids) <= F or t == 0:
             break
         t = max(0, min(t - 1, t - (len(kids) - F + 1) // 2))
@@ -403,7 +403,7 @@ def _hot_children(rank: np.ndarray, lo: int, hi: int, F: int, cap: int) -> list[
         # possible, at least two (the range is longer than a leaf, so it has at least two keys)
         m = min(F, size, max(2, -(-size // cap)))
         bounds = lo + (np.arange(m + 1) * size) // m
-        kids = [(a, z) for a, z in zip(bounds[:-1].tolist(), bounds[1:].tolist()) if z > a]
+        kids = [(a, z) for a, z in zip(bounds[:-1].tolist(), bounds[1:].tolist(), strict=False) if z > a]
     return kids
 
 

@@ -104,8 +104,9 @@ def _at_most(G: dict, s: int, A: np.ndarray) -> np.ndarray:
     return A if s == 1 else np.minimum(A, G[s])
 
 
-def solve_bplus_within(hist: Histogram, L: int, F: int, max_pages: int | None, max_height: int,
-                       steps: int = BISECTION_STEPS) -> ConstrainedResult:  # fmt: skip
+def solve_bplus_within(
+    hist: Histogram, L: int, F: int, max_pages: int | None, max_height: int, steps: int = BISECTION_STEPS
+) -> ConstrainedResult:
     """Best B+-tree of at most ``max_height`` levels and ``max_pages`` pages found by the
     price-per-page bisection, with the Lagrangian dual bound."""
     n, total = hist.n, hist.total

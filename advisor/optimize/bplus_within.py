@@ -31,7 +31,6 @@ from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
 from .bplus import bplus_weights, hot_leaf_starts, leaf_count
 
-
 HOT_RUNS_MAX = 512  # most hot runs given leaves of their own (a vectorised pass each)
 
 
@@ -43,8 +42,9 @@ def full_leaf_starts(n: int, L: int) -> np.ndarray:
     return np.arange(0, n, L, dtype=np.int64)
 
 
-def bplus_within_layout(hist: Histogram, L: int, F: int, max_pages: int, max_height: int,
-                        starts: np.ndarray | None = None, tries: int = 2) -> Layout | None:  # fmt: skip
+def bplus_within_layout(
+    hist: Histogram, L: int, F: int, max_pages: int, max_height: int, starts: np.ndarray | None = None, tries: int = 2
+) -> Layout | None:
     """A B+-tree over the given leaves (default: full leaves) within the budget, or None when
     even the fewest internal pages over those leaves exceed it or they need more levels."""
     n = hist.n

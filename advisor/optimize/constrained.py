@@ -160,8 +160,9 @@ def _one_page(n: int, c: int) -> Layout:
     return b.build()
 
 
-def solve_within(hist: Histogram, c: int, max_pages: int | None, max_height: int,
-                 steps: int = BISECTION_STEPS) -> ConstrainedResult:  # fmt: skip
+def solve_within(
+    hist: Histogram, c: int, max_pages: int | None, max_height: int, steps: int = BISECTION_STEPS
+) -> ConstrainedResult:
     """Best classic B-tree of at most ``max_height`` levels and ``max_pages`` pages found by the
     price-per-page bisection, with the Lagrangian dual bound (see the module docstring)."""
     n, total = hist.n, hist.total
@@ -197,7 +198,7 @@ def solve_within(hist: Histogram, c: int, max_pages: int | None, max_height: int
             best_layout, best_cost = layout, cost
             break
         lo_lam, hi_lam = hi_lam, hi_lam * 4
-        if hi_lam > scale * (height + 1) * 4 ** 3:  # beyond any cost difference: min pages must come
+        if hi_lam > scale * (height + 1) * 4**3:  # beyond any cost difference: min pages must come
             raise AssertionError("no tree within the page budget: the caller checks the minimum")
     for _ in range(steps):
         mid = 0.5 * (lo_lam + hi_lam)

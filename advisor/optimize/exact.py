@@ -251,7 +251,9 @@ class _ForestTables:
     # columns run by n - L so that the right parts of one row minimisation are a forward slice
 
 
-def _forest_tables(p: np.ndarray, q: np.ndarray, c: int, integer: bool = False, top: int | None = None) -> _ForestTables:
+def _forest_tables(
+    p: np.ndarray, q: np.ndarray, c: int, integer: bool = False, top: int | None = None
+) -> _ForestTables:
     n = p.size
     dtype, inf = table_type(integer)
     top = c if top is None else top

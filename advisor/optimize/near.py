@@ -94,7 +94,7 @@ def _fill(cum, mid, lo, hi, pick, c):
     chosen = set(int(x) for x in pick)
     edges = [lo - 1] + sorted(chosen) + [hi]
     heap = []
-    for left, right in zip(edges[:-1], edges[1:]):
+    for left, right in zip(edges[:-1], edges[1:], strict=False):
         if right - left > 1:
             heapq.heappush(heap, (-(cum[2 * right] - cum[2 * left + 2]), left, right))
     while len(chosen) < c:
@@ -244,8 +244,9 @@ def polish(layout: Layout, hist: Histogram, ops_budget: float = 3e8, max_subtree
     return b.build()
 
 
-def _graft_exact(b: LayoutBuilder, hist: Histogram, lo: int, hi: int, c: int, parent: int, slot: int,
-                 fanout: int = 0) -> None:  # fmt: skip
+def _graft_exact(
+    b: LayoutBuilder, hist: Histogram, lo: int, hi: int, c: int, parent: int, slot: int, fanout: int = 0
+) -> None:
     """Solve keys lo..hi-1 (and their gaps) exactly and attach the subtree at (parent, slot).
 
     For a B+-tree (``fanout`` > 0) the gaps routed to these keys' leaves are gaps lo+1..hi
@@ -259,4 +260,6 @@ def _graft_exact(b: LayoutBuilder, hist: Histogram, lo: int, hi: int, c: int, pa
     for k in range(sub.pages):
         par = int(sub.parent[k])
         leaf = bool(sub.leaf[k]) if fanout else True
-        ids.append(b.add(sub.keys_of(k) + lo, parent if par < 0 else ids[par], slot if par < 0 else int(sub.slot[k]), leaf))
+        ids.append(
+            b.add(sub.keys_of(k) + lo, parent if par < 0 else ids[par], slot if par < 0 else int(sub.slot[k]), leaf)
+        )

@@ -27,13 +27,19 @@ from .exact import exact_work, solve_exact
 @dataclass
 class _Node:
     keys: list[int]  # ascending global key ranks
-    kids: list["_Node | None"]  # one per slot, len(keys) + 1
+    kids: list[_Node | None]  # one per slot, len(keys) + 1
     exact: bool = False  # an exact optimum of its own range: nothing below can improve
     cost: float | None = field(default=None, repr=False)  # C(subtree), cached
 
 
-def recut(layout: Layout, hist: Histogram, ops_budget: float = 1e9, width: int = 4,
-          max_window_ops: float = 1.2e9, passes: int = 4) -> Layout:  # fmt: skip
+def recut(
+    layout: Layout,
+    hist: Histogram,
+    ops_budget: float = 1e9,
+    width: int = 4,
+    max_window_ops: float = 1.2e9,
+    passes: int = 4,
+) -> Layout:
     """Improve a classic B-tree layout by exact re-cuts of windows of up to ``width`` keys.
 
     Each page uses the widest window whose typical range the exact solver can afford: wider
@@ -66,8 +72,9 @@ def recut(layout: Layout, hist: Histogram, ops_budget: float = 1e9, width: int =
     return _to_layout(root, n, c)
 
 
-def _one_pass(root: _Node, hist: Histogram, weight, c: int, n: int, budget: list, width: int, cap: int,
-              sweeps: int = 3) -> bool:  # fmt: skip
+def _one_pass(
+    root: _Node, hist: Histogram, weight, c: int, n: int, budget: list, width: int, cap: int, sweeps: int = 3
+) -> bool:
     """One top-down pass of sliding re-cuts; True when any was taken."""
     improved = False
     bounds = {id(root): (0, n)}  # key range [lo, hi) of each node still to visit
@@ -164,8 +171,10 @@ def _span(node: _Node) -> tuple[int, int]:
 
 
 def _to_nodes(layout: Layout, shift: int = 0, exact: bool = False) -> _Node:
-    nodes = [_Node([int(k) + shift for k in layout.keys_of(p)], [None] * (layout.keys_of(p).size + 1), exact)
-             for p in range(layout.pages)]  # fmt: skip
+    nodes = [
+        _Node([int(k) + shift for k in layout.keys_of(p)], [None] * (layout.keys_of(p).size + 1), exact)
+        for p in range(layout.pages)
+    ]
     for p in range(1, layout.pages):
         nodes[int(layout.parent[p])].kids[int(layout.slot[p])] = nodes[p]
     return nodes[0]

@@ -33,8 +33,14 @@ def subtree_totals(layout: Layout, values: np.ndarray) -> np.ndarray:
     return acc
 
 
-def polish_within(layout: Layout, hist: Histogram, max_pages: int | None, max_height: int | None,
-                  ops_budget: float = 3e8, max_subtree_ops: float = 1e8) -> Layout:  # fmt: skip
+def polish_within(
+    layout: Layout,
+    hist: Histogram,
+    max_pages: int | None,
+    max_height: int | None,
+    ops_budget: float = 3e8,
+    max_subtree_ops: float = 1e8,
+) -> Layout:
     """Re-solve the largest affordable subtrees exactly within the budget (classic B-tree)."""
     c, n = layout.capacity, layout.n_keys
     if layout.structure != "btree" or layout.pages <= 1 or hist.total <= 0:
@@ -56,8 +62,12 @@ def polish_within(layout: Layout, hist: Histogram, max_pages: int | None, max_he
         size = int(hi[page] - lo[page] + 1)
         levels = (max_height - int(depth[page]) + 1) if max_height is not None else int(height_below[page]) + 1
         work = constrained_work(size, c, levels) * EVALUATIONS
-        if (kids.get(page) and work <= max_subtree_ops and spent + work <= ops_budget
-                and constrained_bytes(size, c, levels) <= MAX_BYTES):  # fmt: skip
+        if (
+            kids.get(page)
+            and work <= max_subtree_ops
+            and spent + work <= ops_budget
+            and constrained_bytes(size, c, levels) <= MAX_BYTES
+        ):
             spent += work
             a, z = int(lo[page]), int(hi[page]) + 1
             sub = Histogram(hist.p[a:z], hist.q[a : z + 1])
@@ -87,4 +97,6 @@ def _graft(b: LayoutBuilder, sub: Layout, shift: int, parent: int, slot: int) ->
     ids: list[int] = []
     for k in range(sub.pages):
         par = int(sub.parent[k])
-        ids.append(b.add(sub.keys_of(k) + shift, parent if par < 0 else ids[par], slot if par < 0 else int(sub.slot[k])))
+        ids.append(
+            b.add(sub.keys_of(k) + shift, parent if par < 0 else ids[par], slot if par < 0 else int(sub.slot[k]))
+        )

@@ -8,7 +8,8 @@ non-empty run between page keys in its child slot.
 from __future__ import annotations
 
 from collections import deque
-from typing import Any, Callable
+from collections.abc import Callable
+from typing import Any
 
 import numpy as np
 

@@ -199,8 +199,9 @@ def choose_plain(local: np.ndarray, order: np.ndarray, size: int, c: int, sub: i
 
 
 def choose(local, order, size, c, sub, budget) -> np.ndarray:
-    return choose_root_keys(np.ascontiguousarray(local, dtype=np.float64), np.ascontiguousarray(order, dtype=np.int64),
-                            size, c, sub, budget)  # fmt: skip
+    return choose_root_keys(
+        np.ascontiguousarray(local, dtype=np.float64), np.ascontiguousarray(order, dtype=np.int64), size, c, sub, budget
+    )
 
 
 def _root_page(score: np.ndarray, lo: int, hi: int, c: int, h: int, budget: int, tries: int):
