@@ -7,7 +7,6 @@ internal error; 130 interrupted.
 
 from __future__ import annotations
 
-import io
 import json
 import sys
 import time
@@ -22,12 +21,12 @@ from rich.progress import BarColumn, Progress, SpinnerColumn, TextColumn, TimeEl
 
 from . import interrupt
 from .advise import PageSettings, Request, analyse, export_paths
-from .atomic import atomic_path
 from .budget import BudgetSpec
 from .demo import DEMO_KEY, DEMO_LOG, DEMO_TABLE, build_demo
 from .errors import AdvisorError, LayoutInvalid, OutputRefused, SettingInvalid
 from .export import check_destination, check_target, write_layout
 from .pagesize import PROFILES, StorageProfile
+from .pictures import save_pictures
 from .report import render_probe, render_run
 from .workload import load_workload
 
@@ -273,20 +272,6 @@ ExactOpt = Annotated[
 ]
 
 
-def save_pictures(run: dict, svg: Path | None, html: Path | None, replace: bool) -> None:
-    """Render the report on a recording console and save it as SVG and/or HTML, atomically."""
-    console = Console(record=True, width=110, file=io.StringIO(), force_terminal=True)
-    console.print(render_run(run))
-    for path, kind in ((svg, "svg"), (html, "html")):
-        if path is None:
-            continue
-        with atomic_path(path) as tmp:
-            if kind == "svg":
-                console.save_svg(str(tmp), title="advisor report", clear=False)
-            else:
-                console.save_html(str(tmp), clear=False)
-
-
 def _run(
     database,
     table,
@@ -331,12 +316,15 @@ def _run(
                 str(write_layout(wl, plan.recommended, path, replace=force)) for plan, path in targets_out
             ]
         run["timings"] = {"histogram_seconds": round(t_hist, 3), "total_seconds": round(time.perf_counter() - t0, 3)}
+    if svg or html:
+        run["pictures"] = save_pictures(render_run(run), svg, html)
     if as_json:
         print(json.dumps(run, indent=2, default=str))
     else:
-        Console(highlight=False).print(render_run(run))
-    if svg or html:
-        save_pictures(run, svg, html, force)
+        console = Console(highlight=False)
+        console.print(render_run(run))
+        for path in run.get("pictures", []):
+            console.print(f"Report saved to {path}", style="green")
 
 
 def parse_storage(text: str) -> StorageProfile:

@@ -219,7 +219,9 @@ def pool_table(run: dict) -> Table | None:
             if lru:
                 cells += [*_pair(row["uniform_lru"], row["optimized_lru"], ".3f")]
             t.add_row(*cells, end_section=i == len(p["buffer_pool"]) - 1)
-    t.caption = "% of index: pool size as a share of the even split's pages; LRU: the log replayed in order, cold start"
+    t.caption = "% of index: pool size as a share of the even split's pages" + (
+        "; LRU: the log replayed in order, cold start" if lru else ""
+    )
     t.caption_justify = "left"
     return t
 

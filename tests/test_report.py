@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import io
+import os
+from pathlib import Path
 
 import numpy as np
 from rich.console import Console
@@ -10,6 +12,7 @@ from typer.testing import CliRunner
 
 from advisor.budget import BudgetSpec
 from advisor.bufferpool import pool_figures
+from advisor.frontier import frontier
 from advisor.cli import app
 from advisor.histogram import Histogram
 from advisor.planner import PlanOptions, plan_capacity
@@ -73,6 +76,37 @@ def test_svg_and_html_pictures(tmp_path):
     assert res.exit_code == 0, res.stderr
     assert svg.read_text().startswith("<svg") and "Traffic" in svg.read_text()
     assert "<html" in html.read_text().lower() and "Traffic" in html.read_text()
+    # this project's own page: its heading and advice line, no window chrome (no title-bar dots)
+    for text in (svg.read_text(), html.read_text()):
+        assert "advisor: page-layout advice" in text and "copy of your data" in text
+    assert "<circle" not in svg.read_text() and "Generated with Rich" not in svg.read_text()
+    assert f"Report saved to {svg}" in res.stdout.replace("\n", "")
     again = runner.invoke(app, args)
     assert again.exit_code == 7 and "--force" in again.stderr
     assert not list(tmp_path.glob(".*partial*"))
+
+
+GOLDEN = Path(__file__).parent / "golden" / "report-80.txt"
+
+
+def test_report_matches_the_golden_file_at_80_columns():
+    """The whole report of a fixed small run, rendered at 80 columns without colour, equals the
+    committed file (regenerate with ADVISOR_UPDATE_GOLDEN=1 after a deliberate change)."""
+    rng = np.random.default_rng(2)
+    n = 300
+    p = np.round(1000 / np.arange(1, n + 1) ** 1.1)[rng.permutation(n)]
+    q = np.zeros(n + 1)
+    q[::25] = 7
+    hist = Histogram(p, q)
+    opts = PlanOptions(exact_seconds=0)
+    plans = [plan_capacity(hist, c, options=opts) for c in (4, 12)]
+    pools = [pool_figures(pl.uniform, pl.recommended, hist, None, [1, 3]) for pl in plans]
+    run = run_dict(hist, plans, {"database": "example.duckdb", "table": "parts", "key": "part_no"}, [], pools)
+    for entry, pl in zip(run["plans"], plans, strict=True):
+        entry["frontier"] = frontier(pl, hist, opts)
+    text = _render(run, 80)
+    if os.environ.get("ADVISOR_UPDATE_GOLDEN"):
+        GOLDEN.parent.mkdir(exist_ok=True)
+        GOLDEN.write_text(text)
+    assert text == GOLDEN.read_text()
+    assert max(len(line) for line in text.splitlines()) <= 80 and "…" not in text
