@@ -23,7 +23,7 @@ from . import interrupt
 from .advise import PageSettings, Request, analyse, export_paths
 from .budget import BudgetSpec
 from .demo import DEMO_KEY, DEMO_LOG, DEMO_TABLE, build_demo
-from .errors import AdvisorError, LayoutInvalid, OutputRefused, SettingInvalid
+from .errors import AdvisorError, InputInvalid, InputNotFound, LayoutInvalid, OutputRefused, SettingInvalid
 from .export import check_destination, check_target, write_layout
 from .pagesize import PROFILES, StorageProfile
 from .pictures import save_pictures
@@ -94,6 +94,15 @@ KeyOpt = Annotated[str, _opt("--key", "The indexed key column.", IN, metavar="CO
 LogOpt = Annotated[
     Optional[str],
     _opt("--log", "Lookup log: a table in the database, or a .parquet/.csv file.", IN, metavar="TABLE|FILE"),
+]
+LogSqlOpt = Annotated[
+    Optional[Path],
+    _opt(
+        "--log-sql",
+        "A file with a query whose result is the lookup log, run read-only (see workloads/).",
+        IN,
+        metavar="FILE",
+    ),
 ]
 LogColumnOpt = Annotated[
     Optional[str],
@@ -288,6 +297,7 @@ def _run(
     memory_limit=None,
     svg=None,
     html=None,
+    log_sql=None,
 ):
     """Open, analyse, export, render: the whole command, with no figures computed here."""
     if export is not None:
@@ -300,7 +310,8 @@ def _run(
                 raise OutputRefused(f"directory {picture.parent} does not exist")
     t0 = time.perf_counter()
     interrupt.checkpoint("read")
-    with load_workload(database, table, key, log, log_column, count_column, distinct_keys, memory_limit) as wl:
+    query = read_query(log_sql)
+    with load_workload(database, table, key, log, log_column, count_column, distinct_keys, memory_limit, query) as wl:
         wl.info["database"] = str(database)
         t_hist = time.perf_counter() - t0
         with _progress(not as_json and sys.stderr.isatty()) as bar:
@@ -327,6 +338,18 @@ def _run(
             console.print(f"Report saved to {path}", style="green")
 
 
+def read_query(path: Path | None) -> str | None:
+    """The text of a --log-sql file (None without one)."""
+    if path is None:
+        return None
+    try:
+        return Path(path).read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise InputNotFound(f"--log-sql file not found: {path}") from None
+    except (OSError, UnicodeDecodeError) as e:
+        raise InputInvalid(f"cannot read --log-sql file {path}: {e}") from None
+
+
 def parse_storage(text: str) -> StorageProfile:
     """A named profile, or 'latency_us,mb_per_s' for a custom one."""
     if text in PROFILES:
@@ -348,6 +371,7 @@ def recommend_cmd(
     table: TableOpt,
     key: KeyOpt,
     log: LogOpt = None,
+    log_sql: LogSqlOpt = None,
     log_column: LogColumnOpt = None,
     count_column: CountColumnOpt = None,
     page_size: PageSizeOpt = None,
@@ -426,6 +450,7 @@ def recommend_cmd(
             memory_limit,
             svg,
             html,
+            log_sql,
         )
 
 
@@ -445,6 +470,7 @@ def build_cmd(
         Path, _opt("--out", "The index file to write (refused if it exists, unless --force).", OUT, metavar="FILE")
     ],
     log: LogOpt = None,
+    log_sql: LogSqlOpt = None,
     log_column: LogColumnOpt = None,
     count_column: CountColumnOpt = None,
     page_size: Annotated[
@@ -515,7 +541,10 @@ def build_cmd(
             budget=BudgetSpec(max_pages, max_height),
             frontier=False,
         )
-        with load_workload(database, table, key, log, log_column, count_column, distinct_keys, memory_limit) as wl:
+        query = read_query(log_sql)
+        with load_workload(
+            database, table, key, log, log_column, count_column, distinct_keys, memory_limit, query
+        ) as wl:
             plan = plan_one(wl, request)
             summary = build_index(wl, plan, out, layout, force, size)
         if as_json:

@@ -123,8 +123,45 @@ def _table_sql(con, table: str) -> str:
     return f"{quote(schema)}.{quote(name)}"
 
 
+class QueryLog(str):
+    """A log given as a query (``--log-sql``): the SQL relation itself, already checked."""
+
+
+def query_log(con, text: str) -> QueryLog:
+    """Check a query whose result is the lookup log and return it as a relation. The database is
+    open read-only, so the query can read files and tables but write nothing."""
+    body = text.strip().rstrip(";").strip()
+    lines = [ln for ln in body.splitlines() if not ln.strip().startswith("--")]
+    if not "\n".join(lines).strip():
+        raise InputInvalid("the --log-sql file holds no query")
+    rel = f"({body}\n)"
+    try:
+        con.execute(f"SELECT * FROM {rel} LIMIT 0").fetchall()
+    except duckdb.Error as e:
+        raise InputInvalid(f"the --log-sql query does not run: {_first_line(str(e))}") from None
+    return QueryLog(rel)
+
+
 def _log_source(con, log: str) -> tuple[str, str]:
-    """SQL relation for the log and a human name: a file DuckDB reads, or a table."""
+    """SQL relation for the log and a human name: a query, a file (or a directory or glob of
+    Parquet files, hive partitions read as columns) DuckDB reads, or a table."""
+    if isinstance(log, QueryLog):
+        return str(log), "query (--log-sql)"
+    if any(ch in log for ch in "*?[") and log.lower().endswith(".parquet"):
+        rel = f"read_parquet({sql_string(log)}, hive_partitioning = true)"
+        try:
+            con.execute(f"SELECT * FROM {rel} LIMIT 0").fetchall()
+        except duckdb.Error as e:
+            raise InputNotFound(f"no Parquet files match {log}: {_first_line(str(e))}") from None
+        return rel, f"files {log}"
+    if os.path.isdir(log):
+        pattern = os.path.join(log, "**", "*.parquet")
+        rel = f"read_parquet({sql_string(pattern)}, hive_partitioning = true)"
+        try:
+            con.execute(f"SELECT * FROM {rel} LIMIT 0").fetchall()
+        except duckdb.Error as e:
+            raise InputInvalid(f"log directory {log} holds no readable Parquet files: {_first_line(str(e))}") from None
+        return rel, f"directory {log}"
     looks_like_file = log.lower().endswith(LOG_FILE_SUFFIXES) or os.sep in log or os.path.exists(log)
     if not looks_like_file:
         return _table_sql(con, log), f"table {log}"
@@ -156,6 +193,7 @@ def load_workload(
     count_column: str | None = None,
     distinct_keys: bool = False,
     memory_limit: str | None = None,
+    log_query: str | None = None,
 ) -> Workload:
     """Open ``database`` read-only and build the histogram of ``log`` against ``table.key``.
 
@@ -174,6 +212,10 @@ def load_workload(
             con.close()
             raise SettingInvalid(f"memory limit {memory_limit!r} is not a size DuckDB understands (e.g. 2GB)") from None
     try:
+        if log_query is not None:
+            if log is not None:
+                raise SettingInvalid("give the log as --log or as --log-sql, not both")
+            log = query_log(con, log_query)
         return _load(con, table, key, log, log_column, count_column, distinct_keys)
     except (AdvisorError, KeyboardInterrupt):
         con.close()
