@@ -121,7 +121,7 @@ class Request:
     truncate_separators: bool = False
     pool_pages: list[int] | None = None
     order_column: str | None = None  # enables the LRU replay and the held-out check
-    replay_limit: int = 1_000_000
+    replay_limit: int = 20_000_000  # about 12 bytes per replayed lookup
     holdout: float = 0.2
     scan_to: str | None = None
     storage: StorageProfile | None = None

@@ -17,6 +17,7 @@ import numpy as np
 
 from .histogram import Histogram
 from .layout import Layout, end_pages, page_traffic
+from .lru_kernel import lru_miss_count
 
 DEFAULT_POOL_FRACTIONS = (0.001, 0.003, 0.01, 0.03, 0.1)
 
@@ -59,19 +60,32 @@ class Replay:
     n_keys: int
 
 
-def replay_access_sequence(layout: Layout, replay: Replay) -> list[np.ndarray]:
-    """Per lookup, the pages it reads, root first (as arrays, in log order)."""
+def stop_pages(layout: Layout, replay: Replay) -> np.ndarray:
+    """Per lookup, in log order, the page where it stops."""
     key_page, gap_page = end_pages(layout)
-    stop = np.where(
+    return np.where(
         replay.outcomes < replay.n_keys,
         key_page[np.minimum(replay.outcomes, replay.n_keys - 1)],
         gap_page[np.maximum(replay.outcomes - replay.n_keys, 0)],
     )
-    return lookup_paths(layout)[stop]
+
+
+def replay_access_sequence(layout: Layout, replay: Replay) -> list[np.ndarray]:
+    """Per lookup, the pages it reads, root first (as arrays, in log order)."""
+    return lookup_paths(layout)[stop_pages(layout, replay)]
 
 
 def lru_misses(layout: Layout, replay: Replay, sizes: list[int]) -> list[float]:
     """Misses per lookup of an LRU pool of each size over the replayed log (cold start)."""
+    if replay.outcomes.size == 0 or layout.pages == 0:
+        return [0.0 for _ in sizes]
+    stop = np.ascontiguousarray(stop_pages(layout, replay), dtype=np.int32)
+    paths = np.ascontiguousarray(lookup_paths(layout), dtype=np.int64)
+    return [lru_miss_count(stop, paths, int(b)) / replay.outcomes.size for b in sizes]
+
+
+def lru_plain(layout: Layout, replay: Replay, sizes: list[int]) -> list[float]:
+    """The same with an ``OrderedDict`` per size: the reference the compiled kernel is tested against."""
     if replay.outcomes.size == 0 or layout.pages == 0:
         return [0.0 for _ in sizes]
     seq = replay_access_sequence(layout, replay).ravel()

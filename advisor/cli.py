@@ -8,7 +8,6 @@ internal error; 130 interrupted.
 from __future__ import annotations
 
 import json
-import sys
 import time
 from contextlib import contextmanager
 from pathlib import Path
@@ -17,7 +16,6 @@ from typing import Annotated, Optional
 import duckdb
 import typer
 from rich.console import Console
-from rich.progress import BarColumn, Progress, SpinnerColumn, TextColumn, TimeElapsedColumn
 
 from . import interrupt
 from .advise import PageSettings, Request, analyse, export_paths
@@ -27,6 +25,7 @@ from .errors import AdvisorError, InputInvalid, InputNotFound, LayoutInvalid, Ou
 from .export import check_destination, check_target, write_layout
 from .pagesize import PROFILES, StorageProfile
 from .pictures import save_pictures
+from .progress import steps
 from .report import render_probe, render_run
 from .workload import load_workload
 
@@ -67,18 +66,6 @@ def _guard():
 def _interrupted() -> None:
     Console(stderr=True, highlight=False).print(interrupt.message(), markup=False, soft_wrap=True)
     raise typer.Exit(130)
-
-
-def _progress(enabled: bool) -> Progress:
-    return Progress(
-        SpinnerColumn(),
-        TextColumn("{task.description}"),
-        BarColumn(),
-        TimeElapsedColumn(),
-        console=Console(stderr=True),
-        transient=True,
-        disable=not enabled,
-    )
 
 
 IN, GEO, BUD, OUT, WL, SOLVE = "Table and log", "Page geometry", "Budget", "Output", "Workload checks", "Solver"
@@ -311,22 +298,28 @@ def _run(
     t0 = time.perf_counter()
     interrupt.checkpoint("read")
     query = read_query(log_sql)
-    with load_workload(database, table, key, log, log_column, count_column, distinct_keys, memory_limit, query) as wl:
-        wl.info["database"] = str(database)
-        t_hist = time.perf_counter() - t0
-        with _progress(not as_json and sys.stderr.isatty()) as bar:
-            task = bar.add_task("planning")
+    with steps() as progress:
+        progress.step("reading the table and aggregating the log in DuckDB")
+        with load_workload(
+            database, table, key, log, log_column, count_column, distinct_keys, memory_limit, query
+        ) as wl:
+            wl.info["database"] = str(database)
+            t_hist = time.perf_counter() - t0
             interrupt.checkpoint("plan")
-            result = analyse(wl, request, lambda i, step: bar.update(task, description=f"plan {i + 1}: {step}"))
-        run = result.run
-        if export is not None:
-            targets_out = export_paths(export, result.plans, export_for)
-            for _, path in targets_out:
-                check_target(path, force)
-            run["exports"] = [
-                str(write_layout(wl, plan.recommended, path, replace=force)) for plan, path in targets_out
-            ]
-        run["timings"] = {"histogram_seconds": round(t_hist, 3), "total_seconds": round(time.perf_counter() - t0, 3)}
+            result = analyse(wl, request, lambda i, step: progress.step(f"plan {i + 1}: {step}"))
+            run = result.run
+            if export is not None:
+                progress.step("writing the export")
+                targets_out = export_paths(export, result.plans, export_for)
+                for _, path in targets_out:
+                    check_target(path, force)
+                run["exports"] = [
+                    str(write_layout(wl, plan.recommended, path, replace=force)) for plan, path in targets_out
+                ]
+            run["timings"] = {
+                "histogram_seconds": round(t_hist, 3),
+                "total_seconds": round(time.perf_counter() - t0, 3),
+            }
     if svg or html:
         run["pictures"] = save_pictures(render_run(run), svg, html)
     if as_json:
@@ -387,7 +380,7 @@ def recommend_cmd(
     distinct_keys: DistinctOpt = False,
     pool_pages: PoolOpt = None,
     order_column: OrderOpt = None,
-    replay_limit: ReplayOpt = 1_000_000,
+    replay_limit: ReplayOpt = 20_000_000,
     storage: StorageOpt = "nvme",
     pool_bytes: PoolBytesOpt = None,
     svg: SvgOpt = None,
@@ -627,15 +620,15 @@ def demo_cmd(
 ) -> None:
     """Build the invented demo catalogue (once per seed) and print the full report on it."""
     with _guard():
-        db = build_demo(directory, seed=seed, keys=keys, lookups=lookups)
+        with steps() as progress:
+            progress.step("building the demo database (once per seed)")
+            db = build_demo(directory, seed=seed, keys=keys, lookups=lookups)
         if model not in ("btree", "bplus", "both"):
             raise SettingInvalid(f"--model must be btree, bplus or both, got {model!r}")
         if model != "btree" and keys_per_page:
             raise SettingInvalid("the demo's B+-tree plans take page sizes, not --keys-per-page")
         settings = PageSettings(list(page_size or []), list(keys_per_page or []), model=model)
-        request = Request(
-            settings, order_column="lookup_seq", replay_limit=300_000, budget=BudgetSpec(max_pages, max_height)
-        )
+        request = Request(settings, order_column="lookup_seq", budget=BudgetSpec(max_pages, max_height))
         _run(db, DEMO_TABLE, DEMO_KEY, DEMO_LOG, request, as_json, export, None, force, svg=svg, html=html)
 
 

@@ -352,7 +352,7 @@ def _checked_count(con, lsql: str, col: str, ctype: str, lname: str) -> str:
     return f"{c}::DOUBLE"
 
 
-def load_replay(wl: Workload, order_column: str, limit: int = 1_000_000):
+def load_replay(wl: Workload, order_column: str, limit: int = 20_000_000):
     """The log's non-NULL lookups in ``order_column`` order (the first ``limit`` rows), as outcome ids."""
     from .bufferpool import Replay
 

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from cachetools import LRUCache  # test-only dependency: a well-kept general-purpose LRU
 
-from advisor.bufferpool import Replay, lru_misses, pinned_misses, pool_figures, pool_sizes
+from advisor.bufferpool import Replay, lru_misses, lru_plain, pinned_misses, pool_figures, pool_sizes
 from advisor.histogram import Histogram
 from advisor.layout import evaluate, page_traffic
 from advisor.optimize import hot_first_layout, uniform_layout
@@ -56,7 +56,8 @@ def test_lru_replay_matches_cachetools(seed):
     replay = Replay(ids, n)
     for layout in (uniform_layout(n, 3), hot_first_layout(hist, 3, 1)):
         sizes = [1, 2, 5, 20, 200]
-        ours = lru_misses(layout, replay, sizes)
+        ours = lru_misses(layout, replay, sizes)  # the compiled kernel
+        assert ours == lru_plain(layout, replay, sizes)  # the OrderedDict version it replaced
         path = path_finder(layout)
         for b, mine in zip(sizes, ours, strict=False):
             cache = LRUCache(maxsize=b)
