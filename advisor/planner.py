@@ -81,6 +81,9 @@ def near_candidates(hist: Histogram, c: int, model: str = "btree", fanout: int =
 
 PROOF_TOLERANCE = 1e-9
 LOOSE_BUDGET = 1.5  # page budgets from this many times the even split's pages also try the unconstrained builders
+LOOSE_MAX_KEYS = (
+    100_000  # ... below this many keys (beyond, their trees of many more pages rarely fit and cost seconds)
+)
 POLISH_TOP = 2
 
 
@@ -142,6 +145,7 @@ class PlanOptions:
     within_polish_ops: float = 1e9  # estimated work of exact re-solves within the budget (the estimate runs
     # 10-50x above the measured time: n = 1,000 took 0.2 s), and the most one subtree may take:
     within_subtree_ops: float = 5e8
+    quick: bool = False  # a frontier point: large tables skip the slow unconstrained builders
 
 
 def plan_capacity(
@@ -289,7 +293,7 @@ def _within(fit: Histogram, c: int, F: int, uni: Layout, budget: Budget, opts: P
             ranked.append((evaluate(cand, fit).expected_page_reads, name, cand))
     ranked.sort(key=lambda x: x[0])
     best_value, method, best = ranked[0]
-    if opts.within_polish_ops > 0 and not bplus:
+    if opts.within_polish_ops > 0 and not bplus and not (opts.quick and n > LOOSE_MAX_KEYS):
         for _value, name, cand in ranked[:POLISH_TOP]:
             if cand is uni:
                 continue
@@ -316,8 +320,10 @@ def budget_candidates(fit: Histogram, c: int, F: int, uni: Layout, budget: Budge
         even_height = int(uni.depths().max())
         top = budget.max_height if budget.max_height is not None else even_height + 1
         pages = budget.max_pages if budget.max_pages is not None else n
-        for h in sorted({top, max(min_height(n, c), top - 1)}, reverse=True):
-            for tries in (1, 2, 4):
+        quick = opts.quick and n > LOOSE_MAX_KEYS
+        heights = [top] if quick else sorted({top, max(min_height(n, c), top - 1)}, reverse=True)
+        for h in heights:
+            for tries in (4,) if quick else (1, 2, 4):
                 yield (
                     f"hot keys lifted within the budget ({h} levels, {tries}c offered)",
                     lambda h=h, tries=tries: within_budget_layout(fit, c, pages, h, tries),
@@ -333,7 +339,10 @@ def budget_candidates(fit: Histogram, c: int, F: int, uni: Layout, budget: Budge
                     f"hot leaves near the root within the budget ({label}, {h} levels)",
                     lambda s=starts, h=h: bplus_within_layout(fit, c, F, pages, h, s) or uni,
                 )
-    if budget.max_pages is None or budget.max_pages >= LOOSE_BUDGET * uni.pages:
+    small = fit.n <= LOOSE_MAX_KEYS
+    if (budget.max_pages is None and (small or not opts.quick)) or (
+        budget.max_pages is not None and budget.max_pages >= LOOSE_BUDGET * uni.pages and small
+    ):
         # the unconstrained constructions use many more pages than the even split; below a
         # loose budget they never fit, so they are not built
         yield from near_candidates(fit, c, opts.model, F, opts)
