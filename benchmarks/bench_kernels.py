@@ -15,7 +15,6 @@ import time
 import numpy as np
 
 from advisor.bufferpool import Replay, lru_misses, lru_plain
-from advisor.histogram import Histogram
 from advisor.optimize import uniform_layout
 from advisor.optimize.within import capacity_of, choose, choose_plain
 
@@ -24,6 +23,10 @@ def timed(fn, *args):
     t0 = time.perf_counter()
     out = fn(*args)
     return out, time.perf_counter() - t0
+
+
+def repeat(fn, args, times):
+    return [fn(*args) for _ in range(times)]
 
 
 def main() -> None:
@@ -51,8 +54,9 @@ def main() -> None:
         budget = -(-size // c) + 3
         _, first = timed(choose, local, order, size, c, sub, budget)
         reps = 20
-        _, t_fast = timed(lambda: [choose(local, order, size, c, sub, budget) for _ in range(reps)])
-        _, t_slow = timed(lambda: [choose_plain(local, order, size, c, sub, budget) for _ in range(reps)])
+        call = (local, order, size, c, sub, budget)
+        _, t_fast = timed(repeat, choose, call, reps)
+        _, t_slow = timed(repeat, choose_plain, call, reps)
         print(
             f"{f'root-page choice, c = {c}, x{reps}':<34} {size:>12,} {t_slow:>9.2f} {t_fast:>11.3f} "
             f"{t_slow / t_fast:>7.1f} {first:>13.2f}"
@@ -60,5 +64,4 @@ def main() -> None:
 
 
 if __name__ == "__main__":
-    _ = Histogram
     main()
