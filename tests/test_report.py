@@ -12,8 +12,8 @@ from typer.testing import CliRunner
 
 from advisor.budget import BudgetSpec
 from advisor.bufferpool import pool_figures
-from advisor.frontier import frontier
 from advisor.cli import app
+from advisor.frontier import frontier
 from advisor.histogram import Histogram
 from advisor.planner import PlanOptions, plan_capacity
 from advisor.report import BAR_WIDTH, render_run
