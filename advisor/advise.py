@@ -10,7 +10,7 @@ import numpy as np
 
 from .balanced import balanced_bplus_layout, balanced_miss_bound
 from .budget import BudgetSpec
-from .bufferpool import pinned_misses, pool_figures
+from .bufferpool import Replay, pinned_misses, pool_figures
 from .errors import SettingInvalid
 from .frontier import frontier
 from .geometry import (
@@ -158,30 +158,62 @@ class Analysis:
     run: dict  # the JSON-ready result the report is drawn from
 
 
+@dataclass(frozen=True)
+class LogReads:
+    """Everything a run reads from DuckDB beyond the histogram, read once before any planning:
+    the ordered replay (LRU figures), the range scans, and the earlier/later split (held-out)."""
+
+    replay: Replay | None = None
+    scans: tuple | None = None  # (first ranks, last ranks, weights, point-lookup histogram)
+    split: tuple[Histogram, Histogram] | None = None
+
+
+def read_log_extras(wl: Workload, req: Request) -> LogReads:
+    if (req.order_column or req.scan_to) and not wl.log:
+        raise SettingInvalid("--order-column and --scan-to need --log")
+    replay = load_replay(wl, req.order_column, req.replay_limit) if req.order_column else None
+    scans = load_scans(wl, req.scan_to) if req.scan_to else None
+    split = load_split(wl, req.order_column, req.holdout) if req.order_column and req.holdout > 0 else None
+    return LogReads(replay, scans, split)
+
+
 def analyse(wl: Workload, req: Request, on_plan: Callable[[int, str], None] | None = None) -> Analysis:
     """Plan every capacity and add the buffer-pool, balanced, scan, held-out and page-size figures.
 
     ``settings.model == "both"`` plans the classic B-tree and the B+-tree side by side: one list
     of plans (each says its model), so a scan-heavy or cache-bound workload shows which suits it.
+    Everything is read from DuckDB first (:func:`read_log_extras`), then planned on arrays.
     """
-    if req.settings.model == "both":
-        btree = replace(req, settings=replace(req.settings, model="btree"), truncate_separators=False)
-        first = analyse(wl, btree, on_plan)
-        pool = req.pool_bytes or default_pool_bytes(first.plans)  # one pool in bytes for both structures
-        second = analyse(wl, replace(req, settings=replace(req.settings, model="bplus"), pool_bytes=pool), on_plan)
-        parts = [first, second]
-        run = parts[0].run | {"plans": parts[0].run["plans"] + parts[1].run["plans"]}
-        if "holdout" in run:
-            run["holdout"] = run["holdout"] | {"rows": run["holdout"]["rows"] + parts[1].run["holdout"]["rows"]}
-        if "page_size_choice" in run:
-            both = run["page_size_choice"]["rows"] + parts[1].run["page_size_choice"]["rows"]
-            run["page_size_choice"] = run["page_size_choice"] | {"rows": both} | best_choice(both)
-        return Analysis(parts[0].plans + parts[1].plans, run)
-    s = req.settings
-    if (req.order_column or req.scan_to) and not wl.log:
-        raise SettingInvalid("--order-column and --scan-to need --log")
-    if req.truncate_separators and s.model != "bplus":
+    if req.truncate_separators and req.settings.model == "btree":
         raise SettingInvalid("--truncate-separators applies to --model bplus")
+    reads = read_log_extras(wl, req)
+    models = ["btree", "bplus"] if req.settings.model == "both" else [req.settings.model]
+    parts: list[Analysis] = []
+    pool_bytes = req.pool_bytes
+    for model in models:
+        one = replace(req, settings=replace(req.settings, model=model), pool_bytes=pool_bytes)
+        if model == "btree":
+            one = replace(one, truncate_separators=False)
+        parts.append(_analyse_structure(wl, one, reads, on_plan))
+        pool_bytes = pool_bytes or default_pool_bytes(parts[0].plans)  # one pool in bytes for both structures
+    return parts[0] if len(parts) == 1 else _side_by_side(parts)
+
+
+def _side_by_side(parts: list[Analysis]) -> Analysis:
+    """One run of two structures: their plans, held-out rows and page-size rows in one list each."""
+    first, second = parts[0].run, parts[1].run
+    run = first | {"plans": first["plans"] + second["plans"]}
+    if "holdout" in run:
+        run["holdout"] = run["holdout"] | {"rows": run["holdout"]["rows"] + second["holdout"]["rows"]}
+    if "page_size_choice" in run:
+        both = run["page_size_choice"]["rows"] + second["page_size_choice"]["rows"]
+        run["page_size_choice"] = run["page_size_choice"] | {"rows": both} | best_choice(both)
+    return Analysis(parts[0].plans + parts[1].plans, run)
+
+
+def _analyse_structure(wl: Workload, req: Request, reads: LogReads, on_plan) -> Analysis:
+    """The whole run for one structure (``req.settings.model`` is btree or bplus)."""
+    s = req.settings
     targets = capacities(s, wl.key_bytes)
     if req.truncate_separators:
         targets = [(c, replace(g, separator_bytes=truncated_separator_bytes(wl, c)) if g else g) for c, g in targets]
@@ -194,52 +226,22 @@ def analyse(wl: Workload, req: Request, on_plan: Callable[[int, str], None] | No
         budget=req.budget,
     )
     plans = advise(wl.hist, unique, options, on_plan)
-    replay = load_replay(wl, req.order_column, req.replay_limit) if req.order_column else None
-    pools = [pool_figures(p.uniform, p.recommended, wl.hist, replay, req.pool_pages) for p in plans]
-    inputs = {
-        "database": wl.info.get("database"),
-        "table": wl.table,
-        "key": wl.key,
-        "key_type": wl.key_type,
-        "key_bytes": round(wl.key_bytes, 2),
-        "log": wl.log or "(none)",
-        **{k: v for k, v in wl.info.items() if k != "database"},
-        "replayed_lookups": int(replay.outcomes.size) if replay is not None else None,
-    }
-    run = run_dict(wl.hist, plans, inputs, [], pools)
+    pools = [pool_figures(p.uniform, p.recommended, wl.hist, reads.replay, req.pool_pages) for p in plans]
+    run = run_dict(wl.hist, plans, _inputs(wl, reads), [], pools)
     if req.frontier:
         for idx, (entry, p) in enumerate(zip(run["plans"], plans, strict=True)):
             if on_plan:
                 on_plan(idx, "reads-space frontier")
             entry["frontier"] = frontier(p, wl.hist, options)
     if s.model == "bplus":
-        for entry, p in zip(run["plans"], plans, strict=False):
-            layout, sizes, how = balanced_bplus_layout(wl.hist, p.uniform, req.pool_pages)
-            depths = p.uniform.depths()[p.uniform.leaf] if p.uniform.pages else np.zeros(1, dtype=np.int64)
-            height, one_depth = int(depths.max()), bool(depths.min() == depths.max())
-            even_misses, balanced_misses = (
-                pinned_misses(p.uniform, wl.hist, sizes),
-                pinned_misses(layout, wl.hist, sizes),
-            )
-            rows = zip(sizes, even_misses, balanced_misses, strict=True)
-            entry["balanced"] = cost_dict(evaluate(layout, wl.hist), layout, p.page_size) | {
-                "method": how,
-                "buffer_pool": [
-                    {
-                        "pool_pages": b,
-                        "uniform_pinned": u,
-                        "balanced_pinned": m,
-                        "lower_bound": balanced_miss_bound(wl.hist, p.keys_per_page, p.fanout, height, b, one_depth),
-                    }
-                    for b, u, m in rows
-                ],
-            }
-    if req.scan_to:
-        first, last, weight, points = load_scans(wl, req.scan_to)
-        for entry, p in zip(run["plans"], plans, strict=False):
+        for entry, p in zip(run["plans"], plans, strict=True):
+            entry["balanced"] = balanced_figures(wl.hist, p, req.pool_pages)
+    if reads.scans is not None:
+        first, last, weight, points = reads.scans
+        for entry, p in zip(run["plans"], plans, strict=True):
             entry["range_scans"] = scan_figures(p, points, first, last, weight)
-    if req.order_column and req.holdout > 0:
-        train, test = load_split(wl, req.order_column, req.holdout)
+    if reads.split is not None:
+        train, test = reads.split
         alphas = [0.0] + ([req.smoothing] if req.smoothing > 0 else [])
         run["holdout"] = {
             "fraction": req.holdout,
@@ -247,9 +249,39 @@ def analyse(wl: Workload, req: Request, on_plan: Callable[[int, str], None] | No
             "test_lookups": test.total,
             "rows": holdout_rows(train, test, unique, alphas, options),
         }
-    choice = page_size_table(
-        plans, wl.hist, req.storage or PROFILES["nvme"], req.pool_bytes or default_pool_bytes(plans)
-    )
+    profile = req.storage or PROFILES["nvme"]
+    choice = page_size_table(plans, wl.hist, profile, req.pool_bytes or default_pool_bytes(plans))
     if choice["rows"]:
         run["page_size_choice"] = choice
     return Analysis(plans, run)
+
+
+def _inputs(wl: Workload, reads: LogReads) -> dict:
+    return {
+        "database": wl.info.get("database"),
+        "table": wl.table,
+        "key": wl.key,
+        "key_type": wl.key_type,
+        "key_bytes": round(wl.key_bytes, 2),
+        "log": wl.log or "(none)",
+        **{k: v for k, v in wl.info.items() if k != "database"},
+        "replayed_lookups": int(reads.replay.outcomes.size) if reads.replay is not None else None,
+    }
+
+
+def balanced_figures(hist: Histogram, p: Plan, pool_pages: list[int] | None) -> dict:
+    """The balanced B+-tree shape (every leaf at one depth) for the pool, with its miss bound."""
+    layout, sizes, how = balanced_bplus_layout(hist, p.uniform, pool_pages)
+    depths = p.uniform.depths()[p.uniform.leaf] if p.uniform.pages else np.zeros(1, dtype=np.int64)
+    height, one_depth = int(depths.max()), bool(depths.min() == depths.max())
+    even_misses, balanced_misses = pinned_misses(p.uniform, hist, sizes), pinned_misses(layout, hist, sizes)
+    rows = [
+        {
+            "pool_pages": b,
+            "uniform_pinned": u,
+            "balanced_pinned": m,
+            "lower_bound": balanced_miss_bound(hist, p.keys_per_page, p.fanout, height, b, one_depth),
+        }
+        for b, u, m in zip(sizes, even_misses, balanced_misses, strict=True)
+    ]
+    return cost_dict(evaluate(layout, hist), layout, p.page_size) | {"method": how, "buffer_pool": rows}

@@ -1,0 +1,186 @@
+"""The two tree families behind one small interface, so the planner never asks which it has.
+
+A structure knows, for its family: the even split, the least pages and levels any layout needs,
+what its exact solvers cost and return (unlimited and within a budget), its near-optimal
+constructions (unlimited and within a budget) and its lower bounds. ``structure_for`` picks one;
+"both" in a request is simply a list of two.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass
+
+from .budget import Budget
+from .histogram import Histogram
+from .layout import Layout
+from .optimize import (
+    balanced_layout,
+    exact_seconds,
+    exact_work,
+    heaviest_first_layout,
+    hot_first_layout,
+    integer_weights,
+    lower_bounds,
+    solve_exact,
+    uniform_layout,
+)
+from .optimize.bplus import (
+    balanced_bplus,
+    bplus_chain,
+    bplus_height,
+    bplus_level_bound,
+    bplus_window_bound,
+    bplus_work,
+    full_leaves_balanced,
+    full_leaves_exact,
+    hot_first_bplus,
+    leaf_count,
+    solve_bplus_exact,
+    uniform_bplus,
+)
+from .optimize.bplus_constrained import bplus_constrained_work, solve_bplus_within
+from .optimize.bplus_within import bplus_within_layout, hot_leaf_candidates
+from .optimize.constrained import ConstrainedResult, constrained_bytes, constrained_work, solve_within
+from .optimize.exact import FLOAT_OPS_PER_SECOND
+from .optimize.recut import recut
+from .optimize.refine import EVALUATIONS, polish_within
+from .optimize.uniform import min_height
+from .optimize.within import fewest_pages, within_budget_layout
+
+BPLUS_OPS_PER_SECOND = 3e8  # element operations of the float64 B+ DP per second, measured on this machine kind
+BPLUS_WITHIN_OPS_PER_SECOND = 1e8  # the budgeted B+ DP (plain numpy), measured: 300 keys, F = 8, ~0.25 s a run
+BPLUS_WITHIN_MAX_KEYS = 1500  # its tables are (n + 1)^2 per forest size and level
+
+Builder = tuple[str, Callable[[], Layout]]
+
+
+@dataclass(frozen=True)
+class ClassicTree:
+    """Classic B-tree: every page holds keys and their records, c + 1 child slots."""
+
+    name = "btree"
+    fanout = 0
+
+    def even_split(self, n: int, c: int) -> Layout:
+        return uniform_layout(n, c)
+
+    def least(self, n: int, c: int, even: Layout) -> tuple[int, int, str]:
+        """(fewest pages, fewest levels, note for an impossible page budget): N keys need
+        ceil(N / c) pages, and that many suffice at the minimum height (see optimize.within)."""
+        return fewest_pages(n, c), min_height(n, c), ""
+
+    def exact_cost(self, fit: Histogram, c: int) -> tuple[float, float]:
+        integer = integer_weights(fit, c)
+        return exact_seconds(fit.n, c, integer), exact_work(fit.n, c, integer)[1]
+
+    def solve_exact(self, fit: Histogram, c: int):
+        return solve_exact(fit, c)
+
+    def within_exact_cost(self, n: int, c: int, height: int) -> tuple[float, float, bool]:
+        seconds = constrained_work(n, c, height) * EVALUATIONS / FLOAT_OPS_PER_SECOND
+        return seconds, constrained_bytes(n, c, height), True
+
+    def solve_within(self, fit: Histogram, c: int, budget: Budget, height: int) -> ConstrainedResult:
+        return solve_within(fit, c, budget.max_pages, height)
+
+    def near(self, fit: Histogram, c: int, exact_seconds_allowed: float) -> Iterator[Builder]:
+        yield "weight-balanced", lambda: balanced_layout(fit, c, 0.0)
+        yield "weight-balanced, spread 0.1", lambda: balanced_layout(fit, c, 0.1)
+        yield "weight-balanced, heaviest key near each cut", lambda: balanced_layout(fit, c, 0.0, pick_heaviest=True)
+        yield "hot-first", lambda: hot_first_layout(fit, c, 0)
+        yield "hot-first, one level more at the root", lambda: hot_first_layout(fit, c, 1)
+        yield "hot-first, one level more everywhere", lambda: hot_first_layout(fit, c, 1, everywhere=True)
+        yield "heaviest keys first", lambda: heaviest_first_layout(fit, c)
+
+    def within(self, fit: Histogram, c: int, even: Layout, budget: Budget, quick: bool) -> Iterator[Builder]:
+        n = fit.n
+        top = budget.max_height if budget.max_height is not None else int(even.depths().max()) + 1
+        pages = budget.max_pages if budget.max_pages is not None else n
+        heights = [top] if quick else sorted({top, max(min_height(n, c), top - 1)}, reverse=True)
+        for h in heights:
+            for tries in (4,) if quick else (1, 2, 4):
+                yield (
+                    f"hot keys lifted within the budget ({h} levels, {tries}c offered)",
+                    lambda h=h, tries=tries: within_budget_layout(fit, c, pages, h, tries),
+                )
+
+    def bounds(self, hist: Histogram, c: int) -> dict[str, float]:
+        return lower_bounds(hist, c)
+
+    def refine_within(self, layout: Layout, fit: Histogram, budget: Budget, ops: float, subtree_ops: float):
+        """Exact re-solves of subtrees within the budget (None: this family has none)."""
+        return polish_within(layout, fit, budget.max_pages, budget.max_height, ops, subtree_ops)
+
+    def recut(self, layout: Layout, fit: Histogram, ops: float):
+        """Exact re-cuts of page keys (None: this family has none)."""
+        return recut(layout, fit, ops)
+
+
+@dataclass(frozen=True)
+class BPlusTree:
+    """B+-tree: every key in a leaf of at most L keys, internal pages of at most ``fanout``
+    children; leaves may sit at different depths."""
+
+    fanout: int
+    name = "bplus"
+
+    def even_split(self, n: int, c: int) -> Layout:
+        return uniform_bplus(n, c, self.fanout)
+
+    def least(self, n: int, c: int, even: Layout) -> tuple[int, int, str]:
+        note = f"B+-tree plans keep at least the even split's {even.pages} pages (fewer is not built)"
+        return even.pages, bplus_height(n, c, self.fanout), note
+
+    def exact_cost(self, fit: Histogram, c: int) -> tuple[float, float]:
+        if fit.n <= c:
+            return 0.0, 0.0
+        F = self.fanout
+        return bplus_work(fit.n, F) / BPLUS_OPS_PER_SECOND, (2 * len(bplus_chain(F)) + 4) * (fit.n + 1) ** 2 * 8.0
+
+    def solve_exact(self, fit: Histogram, c: int):
+        return solve_bplus_exact(fit, c, self.fanout)
+
+    def within_exact_cost(self, n: int, c: int, height: int) -> tuple[float, float, bool]:
+        seconds = bplus_constrained_work(n, self.fanout, height) * EVALUATIONS / BPLUS_WITHIN_OPS_PER_SECOND
+        return seconds, 0.0, n <= BPLUS_WITHIN_MAX_KEYS
+
+    def solve_within(self, fit: Histogram, c: int, budget: Budget, height: int) -> ConstrainedResult:
+        return solve_bplus_within(fit, c, self.fanout, budget.max_pages, height)
+
+    def near(self, fit: Histogram, c: int, exact_seconds_allowed: float) -> Iterator[Builder]:
+        F = self.fanout
+        if bplus_work(leaf_count(fit.n, c), F) / BPLUS_OPS_PER_SECOND <= exact_seconds_allowed:
+            yield "full leaves, exact internal pages", lambda: full_leaves_exact(fit, c, F)
+        yield "hot keys in leaves of their own", lambda: hot_first_bplus(fit, c, F, 0)
+        yield "hot keys in leaves of their own, one level more", lambda: hot_first_bplus(fit, c, F, 1)
+        yield "full leaves, weight-balanced internal pages", lambda: full_leaves_balanced(fit, c, F)
+        yield "weight-balanced leaves", lambda: balanced_bplus(fit, c, F, 0.1)
+        yield "weight-balanced leaves, spread 1", lambda: balanced_bplus(fit, c, F, 1.0)
+
+    def within(self, fit: Histogram, c: int, even: Layout, budget: Budget, quick: bool) -> Iterator[Builder]:
+        n, F = fit.n, self.fanout
+        top = budget.max_height if budget.max_height is not None else int(even.depths().max()) + 1
+        pages = budget.max_pages if budget.max_pages is not None else 2 * even.pages
+        for starts in hot_leaf_candidates(fit, c, F, pages):
+            label = "full leaves" if starts.size == leaf_count(n, c) else f"{starts.size:,} leaves, hot runs apart"
+            for h in sorted({top, max(bplus_height(n, c, F), top - 1)}, reverse=True):
+                yield (
+                    f"hot leaves near the root within the budget ({label}, {h} levels)",
+                    lambda s=starts, h=h: bplus_within_layout(fit, c, F, pages, h, s) or even,
+                )
+
+    def bounds(self, hist: Histogram, c: int) -> dict[str, float]:
+        F = self.fanout
+        return {"level_capacity": bplus_level_bound(hist, c, F), "leaf_runs": bplus_window_bound(hist, c, F)}
+
+    def refine_within(self, layout: Layout, fit: Histogram, budget: Budget, ops: float, subtree_ops: float):
+        return None  # the budgeted re-solve of subtrees is classic-only so far
+
+    def recut(self, layout: Layout, fit: Histogram, ops: float):
+        return None
+
+
+def structure_for(model: str, fanout: int = 0) -> ClassicTree | BPlusTree:
+    """The structure a model name asks for ("btree" or "bplus" with its fanout)."""
+    return BPlusTree(fanout) if model == "bplus" else ClassicTree()
