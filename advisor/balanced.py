@@ -24,44 +24,58 @@ def balanced_bplus_layout(
     hist: Histogram, uniform: Layout, pages: list[int] | None = None
 ) -> tuple[Layout, list[int], str]:
     """Best balanced layout for the pool sizes (default: 0.1%..10% of the even split's pages)."""
-    L, F, n = uniform.capacity, uniform.fanout, hist.n
+    L, n = uniform.capacity, hist.n
     sizes = pool_sizes(uniform.pages, pages=pages)
-    base = pinned_misses(uniform, hist, sizes)
-    best, best_score, how = uniform, sum(base), "even split (no packing helped)"
     if n <= L or hist.total <= 0:
-        return best, sizes, "exact: one leaf, or nothing looked up" if n <= L or hist.total <= 0 else how
+        return uniform, sizes, "exact: one leaf, or nothing looked up"
+    base = pinned_misses(uniform, hist, sizes)
     height = int(uniform.depths().max())
-    if n <= 12:
-        every = all_balanced(n, L, F, height)
-        if every is not None:  # exact: the best of every balanced tree under the same rule
-            for cand in every:
-                misses = pinned_misses(cand, hist, sizes)
-                if all(m <= b + 1e-12 for m, b in zip(misses, base, strict=False)) and sum(misses) < best_score - 1e-12:
-                    best, best_score, how = cand, sum(misses), "exact: best of every balanced tree"
-            if how.startswith("even"):
-                how = "exact: the even split is already best"
-            return best, sizes, how
+    candidates = _every_balanced(hist, uniform, height) if n <= 12 else None
+    exact = candidates is not None
+    if not exact:
+        candidates = _packings(hist, uniform, height, sizes)
+    best, best_score, how = uniform, sum(base), "even split (no packing helped)"
+    for name, cand in candidates:
+        misses = pinned_misses(cand, hist, sizes)
+        never_worse = all(m <= b + 1e-12 for m, b in zip(misses, base, strict=True))
+        if never_worse and sum(misses) < best_score - (1e-12 if exact else 0.0):
+            best, best_score, how = cand, sum(misses), name
+    if exact and how.startswith("even"):
+        how = "exact: the even split is already best"
+    return best, sizes, how
+
+
+def _every_balanced(hist: Histogram, uniform: Layout, height: int) -> list | None:
+    """Every balanced tree (exact search), or None when there are too many."""
+    every = all_balanced(hist.n, uniform.capacity, uniform.fanout, height)
+    if every is None:
+        return None
+    return [("exact: best of every balanced tree", cand) for cand in every]
+
+
+def _packings(hist: Histogram, uniform: Layout, height: int, sizes: list[int]) -> list:
+    """Near-optimal candidates: full leaves aligned on the hottest run, and the k hottest runs
+    packed into leaves of their own, for k around the pool sizes; all at the even split's height."""
+    L, F, n = uniform.capacity, uniform.fanout, hist.n
     max_leaves = F ** (height - 1)
     w = bplus_weights(hist)
     cum = np.concatenate([[0.0], np.cumsum(w)])
     hottest = int(np.argmax(cum[L:] - cum[:-L])) if n > L else 0
     offset = hottest % L  # full leaves aligned so the hottest run of L keys is one leaf
     aligned = np.concatenate([[0], np.arange(offset, n, L)]) if offset else np.arange(0, n, L)
-    candidates = [("full leaves aligned on the hottest run", np.unique(aligned))]
+    starts = [("full leaves aligned on the hottest run", np.unique(aligned))]
     for k in sorted(set(max(1, s) for s in sizes) | {max(1, sizes[-1] * 2)}):
-        candidates.append(
+        starts.append(
             (f"{k} hottest runs of {L} keys packed into their own leaves", hot_leaf_starts(w, L, k, max_leaves))
         )
-    for name, starts in candidates:
-        if starts is None or starts.size > max_leaves:
+    out = []
+    for name, leaf_starts in starts:
+        if leaf_starts is None or leaf_starts.size > max_leaves:
             continue
-        cand = leaves_to_tree(n, L, F, starts, height)
-        if int(cand.depths().max()) != height or evaluate(cand, hist).expected_page_reads > height + 1e-9:
-            continue
-        misses = pinned_misses(cand, hist, sizes)
-        if all(m <= b + 1e-12 for m, b in zip(misses, base, strict=False)) and sum(misses) < best_score:
-            best, best_score, how = cand, sum(misses), name
-    return best, sizes, how
+        cand = leaves_to_tree(n, L, F, leaf_starts, height)
+        if int(cand.depths().max()) == height and evaluate(cand, hist).expected_page_reads <= height + 1e-9:
+            out.append((name, cand))
+    return out
 
 
 ENUMERATION_LIMIT = 20_000  # balanced trees tried exhaustively below this many

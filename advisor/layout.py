@@ -137,20 +137,35 @@ def check_layout(layout: Layout, budget=None) -> None:
         why = budget.violation(layout)
         if why:
             raise LayoutInvalid(f"layout outside its budget: {why}")
-    n, c, P = layout.n_keys, layout.capacity, layout.pages
     if layout.structure not in STRUCTURES:
         raise LayoutInvalid(f"unknown structure {layout.structure!r}")
     if layout.structure == "bplus":
         return _check_bplus(layout)
-    if c < 1:
+    if layout.capacity < 1:
         raise LayoutInvalid("capacity must be at least 1")
-    if n == 0:
-        if P != 0:
-            raise LayoutInvalid("a layout over no keys must have no pages")
+    if _check_empty(layout):
         return
-    if P == 0:
+    _check_pages(layout)
+    _check_parents(layout)
+    if layout.pages > 1:
+        _check_slots(layout)
+
+
+def _check_empty(layout: Layout) -> bool:
+    """True (and valid) for a layout over no keys; raises for keys without pages."""
+    if layout.n_keys == 0:
+        if layout.pages != 0:
+            raise LayoutInvalid("a layout over no keys must have no pages")
+        return True
+    if layout.pages == 0:
         raise LayoutInvalid("keys but no pages")
-    keys, start, parent, slot = layout.page_keys, layout.page_start, layout.parent, layout.slot
+    return False
+
+
+def _check_pages(layout: Layout) -> None:
+    """Offsets cover the keys, 1..c keys per page, every key once, ascending within a page."""
+    n, c, P = layout.n_keys, layout.capacity, layout.pages
+    keys, start = layout.page_keys, layout.page_start
     if start.shape != (P + 1,) or start[0] != 0 or start[-1] != keys.size:
         raise LayoutInvalid("page offsets do not cover the key array")
     sizes = np.diff(start)
@@ -162,19 +177,28 @@ def check_layout(layout: Layout, budget=None) -> None:
     same_page = page_of[1:] == page_of[:-1]
     if np.any(keys[1:][same_page] <= keys[:-1][same_page]):
         raise LayoutInvalid("keys within a page are not ascending")
+
+
+def _check_parents(layout: Layout) -> None:
+    parent, P = layout.parent, layout.pages
     if parent[0] != -1 or np.any(parent[1:] < 0) or np.any(parent[1:] >= np.arange(1, P)):
         raise LayoutInvalid("page 0 must be the only root and parents must precede children")
-    if P == 1:
-        return
+
+
+def _check_slots(layout: Layout) -> None:
+    """Each child slot used once, within its parent's key count, and every subtree's keys
+    strictly between the two parent keys around its slot."""
+    n, c, P = layout.n_keys, layout.capacity, layout.pages
+    keys, start, parent = layout.page_keys, layout.page_start, layout.parent
+    sizes = np.diff(start)
     ch = np.arange(1, P)
-    par, sl = parent[1:], slot[1:]
+    par, sl = parent[1:], layout.slot[1:]
     if np.any(sl < 0) or np.any(sl > sizes[par]):
         raise LayoutInvalid("a child slot lies outside its parent's key count")
     pair = par * (c + 2) + sl
     if np.unique(pair).size != pair.size:
         raise LayoutInvalid("two children share one slot")
-    # subtree key ranges, bottom-up by depth
-    depth = _depths(parent)
+    depth = _depths(parent)  # subtree key ranges, bottom-up by depth
     lo = keys[start[:-1]].copy()
     hi = keys[start[1:] - 1].copy()
     for d in range(int(depth.max()), 1, -1):
@@ -191,34 +215,38 @@ def _check_bplus(layout: Layout) -> None:
     """B+-tree invariants: leaves hold 1..L consecutive ranks covering 0..n-1 once, in order;
     internal pages have 2..F children in slots 0..m-1 (m - 1 separators), and child t's subtree
     covers exactly the ranks from separator t (or the page's own first rank) up to separator t+1."""
-    n, L, F, P = layout.n_keys, layout.capacity, layout.fanout, layout.pages
-    if L < 1 or F < 2:
+    if layout.capacity < 1 or layout.fanout < 2:
         raise LayoutInvalid("a B+-tree needs leaf capacity >= 1 and fanout >= 2")
-    if n == 0:
-        if P != 0:
-            raise LayoutInvalid("a layout over no keys must have no pages")
+    if _check_empty(layout):
         return
-    if P == 0 or layout.leaf is None or layout.leaf.shape != (P,):
+    if layout.leaf is None or layout.leaf.shape != (layout.pages,):
         raise LayoutInvalid("keys but no pages, or no leaf flags")
-    start, parent, slot, leaf = layout.page_start, layout.parent, layout.slot, layout.leaf
-    sizes = np.diff(start)
-    if parent[0] != -1 or np.any(parent[1:] < 0) or np.any(parent[1:] >= np.arange(1, P)):
-        raise LayoutInvalid("page 0 must be the only root and parents must precede children")
-    if np.any(leaf[parent[1:]]):
+    _check_parents(layout)
+    if np.any(layout.leaf[layout.parent[1:]]):
         raise LayoutInvalid("a leaf page has a child")
-    lsz = sizes[leaf]
+    _check_leaves(layout)
+    _check_separators(layout)
+
+
+def _check_leaves(layout: Layout) -> None:
+    n, L, leaf = layout.n_keys, layout.capacity, layout.leaf
+    lsz = layout.page_sizes()[leaf]
     if lsz.min() < 1 or lsz.max() > L:
         raise LayoutInvalid(f"a leaf holds {int(lsz.min())}..{int(lsz.max())} keys, allowed 1..{L}")
     leaf_keys = np.concatenate([layout.keys_of(p) for p in np.nonzero(leaf)[0]])
     if leaf_keys.size != n or np.bincount(leaf_keys, minlength=n).max() != 1 or leaf_keys.max() >= n:
         raise LayoutInvalid("not every key appears in exactly one leaf")
     for p in np.nonzero(leaf)[0]:
-        k = layout.keys_of(p)
-        if np.any(np.diff(k) != 1):
+        if np.any(np.diff(layout.keys_of(p)) != 1):
             raise LayoutInvalid("a leaf's keys are not consecutive ranks")
+
+
+def _check_separators(layout: Layout) -> None:
+    """2..F children per internal page in slots 0..m-1, separators matching the children's ranges."""
+    n, F, P, leaf = layout.n_keys, layout.fanout, layout.pages, layout.leaf
     children: dict[int, list[tuple[int, int]]] = {}
     for p in range(1, P):
-        children.setdefault(int(parent[p]), []).append((int(slot[p]), p))
+        children.setdefault(int(layout.parent[p]), []).append((int(layout.slot[p]), p))
     lo = np.full(P, n, dtype=np.int64)
     hi = np.full(P, -1, dtype=np.int64)
     for p in range(P - 1, -1, -1):

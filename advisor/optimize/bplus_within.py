@@ -123,7 +123,17 @@ def _page(item_w, item_cum, a: int, z: int, F: int, h: int, budget: int, tries: 
     if size <= F:
         return [(t, t + 1) for t in range(a, z)]
     sub = F ** (h - 2)
-    local = item_w[a:z]
+    chosen, runs, plan = _choose_direct(item_w[a:z], size, F, sub, budget, tries)
+    kids = _children(item_cum[a : z + 1] - item_cum[a], chosen, runs, plan, F, sub)
+    if len(kids) < 2:  # one piece alone: split it (never more pages, one more slot)
+        lo, hi = kids[0]
+        kids = [(lo, lo + 1), (lo + 1, hi)]
+    return [(a + lo, a + hi) for lo, hi in kids if hi > lo]
+
+
+def _choose_direct(local: np.ndarray, size: int, F: int, sub: int, budget: int, tries: int):
+    """The hottest leaves hung directly under the page while it can still be completed within
+    F children and its budget: (chosen local items, runs between them, their plan)."""
     k = min(size, tries * F)
     top = np.argpartition(-local, k - 1)[:k] if k < size else np.arange(size)
     top = top[np.argsort(-local[top], kind="stable")]
@@ -144,28 +154,26 @@ def _page(item_w, item_cum, a: int, z: int, F: int, h: int, budget: int, tries: 
         runs, plan = trial, got
     if plan is None or plan[2] + 1 > budget:  # excluded by the invariant (module docstring)
         raise AssertionError("run not completable within its budget")
+    return chosen, runs, plan
+
+
+def _children(lc: np.ndarray, chosen: list[int], runs: list[int], plan, F: int, sub: int) -> list[tuple[int, int]]:
+    """The page's children in order: per run its directly hung leaves (from its heavier end) and
+    its pieces, then the chosen leaf after it."""
     k, direct, _pages = plan
-    lc = item_cum[a : z + 1] - item_cum[a]
     kids: list[tuple[int, int]] = []
-    edges = [-1] + chosen + [size]
+    edges = [-1] + chosen + [len(lc) - 1]
     for t, s in enumerate(runs):
         first, r = edges[t] + 1, direct[t]
         if s:
             heavy_left = lc[first + r] - lc[first] >= lc[first + s] - lc[first + s - r] if r else True
             hung = list(range(first, first + r)) if heavy_left else list(range(first + s - r, first + s))
-            body = first + r if heavy_left else first
-            pieces = _pieces(lc, body, s - r, k[t], F, sub)
-            if heavy_left:
-                kids += [(x, x + 1) for x in hung] + pieces
-            else:
-                kids += pieces + [(x, x + 1) for x in hung]
+            pieces = _pieces(lc, first + r if heavy_left else first, s - r, k[t], F, sub)
+            singles = [(x, x + 1) for x in hung]
+            kids += singles + pieces if heavy_left else pieces + singles
         if t < len(chosen):
             kids.append((chosen[t], chosen[t] + 1))
-    if len(kids) < 2:  # one piece alone: split it (never more pages, one more slot)
-        lo, hi = kids[0]
-        mid = lo + 1
-        kids = [(lo, mid), (mid, hi)]
-    return [(a + lo, a + hi) for lo, hi in kids if hi > lo]
+    return kids
 
 
 def _pieces(lc: np.ndarray, first: int, length: int, k: int, F: int, sub: int) -> list[tuple[int, int]]:

@@ -72,10 +72,23 @@ def recut(
     return _to_layout(root, n, c)
 
 
+@dataclass
+class _Pass:
+    """What one pass of re-cuts shares: the weights, capacity, window limits and work left."""
+
+    hist: Histogram
+    weight: object  # weight(lo, hi) of keys lo..hi-1 and gaps lo..hi
+    c: int
+    width: int
+    cap: int
+    budget: list  # [work left], spent by every window solved
+
+
 def _one_pass(
     root: _Node, hist: Histogram, weight, c: int, n: int, budget: list, width: int, cap: int, sweeps: int = 3
 ) -> bool:
-    """One top-down pass of sliding re-cuts; True when any was taken."""
+    """One top-down pass of sliding re-cuts, heaviest pages first; True when any was taken."""
+    job = _Pass(hist, weight, c, width, cap, budget)
     improved = False
     bounds = {id(root): (0, n)}  # key range [lo, hi) of each node still to visit
     heap = [(-weight(0, n), 0, root)]
@@ -85,35 +98,9 @@ def _one_pass(
         lo, hi = bounds.pop(id(node))
         tried: set[tuple[int, int, int]] = set()  # windows solved without gain: same range, same answer
         for _ in range(sweeps):
-            changed = False
-            edges = np.array([lo - 1] + node.keys + [hi])
-            for w in range(min(width, len(node.keys)), 0, -1):  # the widest window that fits
-                sizes = edges[w + 1 :] - edges[: -w - 1] - 1
-                if np.median(sizes) <= cap:
-                    break
-            for a in np.nonzero((sizes > c) & (sizes <= cap))[0].tolist():
-                begin = node.keys[a - 1] + 1 if a > 0 else lo
-                end = node.keys[a + w] if a + w < len(node.keys) else hi
-                size = end - begin  # recomputed: a re-cut earlier in this sweep may have moved keys
-                if size <= c or size > cap or (begin, end, w) in tried:
-                    continue
-                work = _window_work(size, c)
-                if work > budget[0]:
-                    continue
-                budget[0] -= work
-                old = sum(_subtree_cost(k, weight) for k in node.kids[a : a + w + 1] if k is not None)
-                sub = Histogram(hist.p[begin:end], hist.q[begin : end + 1])
-                piece = _to_nodes(solve_exact(sub, c, root_keys=w).layout, shift=begin, exact=True)
-                new = sum(_subtree_cost(k, weight) for k in piece.kids if k is not None)
-                if new < old - 1e-9 * max(old, 1.0):
-                    node.keys[a : a + w] = piece.keys
-                    node.kids[a : a + w + 1] = piece.kids
-                    node.cost = None
-                    changed = improved = True
-                else:
-                    tried.add((begin, end, w))
-            if not changed:
+            if not _sweep(node, lo, hi, job, tried):
                 break
+            improved = True
         for i, kid in enumerate(node.kids):
             if kid is not None and not kid.exact and kid.keys and len(kid.kids) > 1 and any(kid.kids):
                 klo = node.keys[i - 1] + 1 if i > 0 else lo
@@ -122,6 +109,46 @@ def _one_pass(
                 heapq.heappush(heap, (-weight(klo, khi), order, kid))
                 order += 1
     return improved
+
+
+def _window_width(node: _Node, lo: int, hi: int, width: int, cap: int) -> tuple[int, np.ndarray]:
+    """The widest window (up to ``width`` keys) whose typical range fits the exact solver, and
+    the range sizes of every window of that width."""
+    edges = np.array([lo - 1] + node.keys + [hi])
+    for w in range(min(width, len(node.keys)), 0, -1):
+        sizes = edges[w + 1 :] - edges[: -w - 1] - 1
+        if np.median(sizes) <= cap:
+            break
+    return w, sizes
+
+
+def _sweep(node: _Node, lo: int, hi: int, job: _Pass, tried: set) -> bool:
+    """Slide the window over one page's keys once, taking every exact re-cut that gains."""
+    c, cap, weight = job.c, job.cap, job.weight
+    w, sizes = _window_width(node, lo, hi, job.width, cap)
+    changed = False
+    for a in np.nonzero((sizes > c) & (sizes <= cap))[0].tolist():
+        begin = node.keys[a - 1] + 1 if a > 0 else lo
+        end = node.keys[a + w] if a + w < len(node.keys) else hi
+        size = end - begin  # recomputed: a re-cut earlier in this sweep may have moved keys
+        if size <= c or size > cap or (begin, end, w) in tried:
+            continue
+        work = _window_work(size, c)
+        if work > job.budget[0]:
+            continue
+        job.budget[0] -= work
+        old = sum(_subtree_cost(k, weight) for k in node.kids[a : a + w + 1] if k is not None)
+        sub = Histogram(job.hist.p[begin:end], job.hist.q[begin : end + 1])
+        piece = _to_nodes(solve_exact(sub, c, root_keys=w).layout, shift=begin, exact=True)
+        new = sum(_subtree_cost(k, weight) for k in piece.kids if k is not None)
+        if new < old - 1e-9 * max(old, 1.0):
+            node.keys[a : a + w] = piece.keys
+            node.kids[a : a + w + 1] = piece.kids
+            node.cost = None
+            changed = True
+        else:
+            tried.add((begin, end, w))
+    return changed
 
 
 def _root_window_fits(root: _Node, n: int, cap: int) -> bool:
