@@ -24,11 +24,12 @@ from .geometry import (
 from .histogram import Histogram
 from .holdout import holdout_rows
 from .layout import evaluate
+from .logreads import load_replay, load_scans, load_split, truncated_separator_bytes
 from .pagesize import PROFILES, StorageProfile, best_choice, default_pool_bytes, page_size_table
 from .planner import Plan, PlanOptions, plan_capacity
 from .scans import scan_figures
 from .serialize import cost_dict, run_dict
-from .workload import Workload, load_replay, load_scans, load_split, truncated_separator_bytes
+from .workload import Workload
 
 
 @dataclass

@@ -17,7 +17,8 @@ import numpy as np
 from .bufferpool import pinned_misses, pool_sizes
 from .histogram import Histogram
 from .layout import Layout, LayoutBuilder, evaluate
-from .optimize.bplus import bplus_level_bound, bplus_weights, hot_leaf_starts, leaves_to_tree
+from .optimize.bplus import bplus_weights, hot_leaf_starts, leaves_to_tree
+from .optimize.bplus_bounds import bplus_level_bound
 
 
 def balanced_bplus_layout(

@@ -21,7 +21,7 @@ from .histogram import Histogram
 from .layout import Layout, LayoutBuilder, evaluate
 from .pagefile import CLASSIC, LEAF, PagedIndex, parse_page, write_index
 from .planner import Plan
-from .workload import KEYS_TABLE, Workload, _find, _log_source, _table_sql, open_database, quote
+from .workload import KEYS_TABLE, Workload, find_column, log_source, open_database, quote, table_sql
 
 REPLAY_BATCH = 100_000
 
@@ -29,7 +29,7 @@ REPLAY_BATCH = 100_000
 def key_codes(wl: Workload) -> tuple[str, list[bytes], np.ndarray]:
     """(codec, code per key rank, row number per key rank) for the workload's ranked keys."""
     codec = keycodec.codec_for(wl.key_type)
-    tsql = _table_sql(wl.con, wl.table)
+    tsql = table_sql(wl.con, wl.table)
     k = quote(wl.key)
     res = wl.con.execute(
         f"SELECT {keycodec.sql_value(wl.key_type, 'kk.k')} AS v, min(t.rowid)::BIGINT AS row "
@@ -144,12 +144,12 @@ def probe_index(
             os.posix_fadvise(index.fd, 0, 0, os.POSIX_FADV_DONTNEED)
         con = open_database(database)
         try:
-            lsql, lname = _log_source(con, log)
+            lsql, lname = log_source(con, log)
             cols = {r[0]: r[1] for r in con.execute(f"DESCRIBE SELECT * FROM {lsql}").fetchall()}
-            vcol = _find(cols, log_column or h.key, f"log {lname}")
+            vcol = find_column(cols, log_column or h.key, f"log {lname}")
             value_sql = keycodec.sql_value(h.key_type, f"CAST({quote(vcol)} AS {h.key_type})")
-            weight = f"{quote(_find(cols, count_column, f'log {lname}'))}::BIGINT" if count_column else "1"
-            order = quote(_find(cols, order_column, f"log {lname}")) if order_column else None
+            weight = f"{quote(find_column(cols, count_column, f'log {lname}'))}::BIGINT" if count_column else "1"
+            order = quote(find_column(cols, order_column, f"log {lname}")) if order_column else None
             truth = _true_rows(con, h)
             lookups = found = wrong = 0
             hits = np.zeros(len(codes))
@@ -202,7 +202,7 @@ def _bisect(codes: list[bytes], code: bytes) -> int:
 
 def _true_rows(con, h) -> dict[bytes, int]:
     """Each key's row number straight from the table (the check that found keys are right)."""
-    tsql = _table_sql(con, h.table)
+    tsql = table_sql(con, h.table)
     k = quote(h.key)
     res = con.execute(
         f"SELECT {keycodec.sql_value(h.key_type, k)} AS v, min(rowid)::BIGINT AS row FROM {tsql} "

@@ -9,24 +9,62 @@ from __future__ import annotations
 
 import json
 import time
-from contextlib import contextmanager
 from pathlib import Path
 from typing import Annotated, Optional
 
-import duckdb
 import typer
 from rich.console import Console
 
 from . import interrupt
 from .advise import PageSettings, Request, analyse, export_paths
 from .budget import BudgetSpec
+from .cli_build import build_cmd, probe_cmd
+from .cli_options import (
+    ChildOpt,
+    CountColumnOpt,
+    DatabaseArg,
+    DistinctOpt,
+    ExactOpt,
+    ExportForOpt,
+    ExportOpt,
+    FanoutOpt,
+    FillOpt,
+    ForceOpt,
+    FrontierOpt,
+    HeaderOpt,
+    HoldoutOpt,
+    HtmlOpt,
+    JsonOpt,
+    KeyBytesOpt,
+    KeyOpt,
+    KppOpt,
+    LogColumnOpt,
+    LogOpt,
+    LogSqlOpt,
+    MaxHeightOpt,
+    MaxPagesOpt,
+    MemoryOpt,
+    ModelOpt,
+    OrderOpt,
+    PageSizeOpt,
+    PoolBytesOpt,
+    PoolOpt,
+    RecordOpt,
+    ReplayOpt,
+    ScanOpt,
+    SmoothOpt,
+    StorageOpt,
+    SvgOpt,
+    TableOpt,
+    TruncateOpt,
+)
+from .cli_support import check_model, guard, parse_storage, read_query
 from .demo import DEMO_KEY, DEMO_LOG, DEMO_TABLE, build_demo
-from .errors import AdvisorError, InputInvalid, InputNotFound, LayoutInvalid, OutputRefused, SettingInvalid
+from .errors import OutputRefused, SettingInvalid
 from .export import check_destination, check_target, write_layout
-from .pagesize import PROFILES, StorageProfile
 from .pictures import save_pictures
 from .progress import steps
-from .report import render_probe, render_run
+from .report import render_run
 from .workload import load_workload
 
 app = typer.Typer(
@@ -34,238 +72,6 @@ app = typer.Typer(
     no_args_is_help=True,
     help="Page-layout advice for read-mostly indexes under skewed lookups.",
 )
-
-
-def _fail(message: str, code: int) -> None:
-    Console(stderr=True, highlight=False).print(f"advisor: error: {message}", markup=False, soft_wrap=True)
-    raise typer.Exit(code)
-
-
-@contextmanager
-def _guard():
-    """One line and a distinct exit code for every failure; never a traceback."""
-    try:
-        with interrupt.armed():
-            yield
-        if interrupt.interrupted():  # a library swallowed the signal: still answer it
-            raise KeyboardInterrupt
-    except AdvisorError as e:
-        _fail(str(e), e.exit_code)
-    except (KeyboardInterrupt, duckdb.InterruptException):
-        _interrupted()
-    except typer.Exit:
-        raise
-    except MemoryError:
-        _fail("out of memory; try fewer page sizes or a smaller table", 1)
-    except Exception as e:  # noqa: BLE001 - the promise is no traceback
-        if "interrupted" in str(e).lower():  # DuckDB turns Ctrl-C inside a query into its own error
-            _interrupted()
-        _fail(f"internal error ({type(e).__name__}): {e}", 1)
-
-
-def _interrupted() -> None:
-    Console(stderr=True, highlight=False).print(interrupt.message(), markup=False, soft_wrap=True)
-    raise typer.Exit(130)
-
-
-IN, GEO, BUD, OUT, WL, SOLVE = "Table and log", "Page geometry", "Budget", "Output", "Workload checks", "Solver"
-
-
-def _opt(name: str, text: str, panel: str, **kw):
-    return typer.Option(name, help=text, rich_help_panel=panel, **kw)
-
-
-DatabaseArg = Annotated[Path, typer.Argument(help="DuckDB database file (opened read-only).", metavar="DATABASE")]
-TableOpt = Annotated[str, _opt("--table", "Table holding the indexed key column.", IN, metavar="NAME")]
-KeyOpt = Annotated[str, _opt("--key", "The indexed key column.", IN, metavar="COLUMN")]
-LogOpt = Annotated[
-    Optional[str],
-    _opt("--log", "Lookup log: a table in the database, or a .parquet/.csv file.", IN, metavar="TABLE|FILE"),
-]
-LogSqlOpt = Annotated[
-    Optional[Path],
-    _opt(
-        "--log-sql",
-        "A file with a query whose result is the lookup log, run read-only (see workloads/).",
-        IN,
-        metavar="FILE",
-    ),
-]
-LogColumnOpt = Annotated[
-    Optional[str],
-    _opt("--log-column", "Looked-up value column in the log (default: the key's name).", IN, metavar="COLUMN"),
-]
-CountColumnOpt = Annotated[
-    Optional[str],
-    _opt("--count-column", "Log column with a lookup count per row (pre-aggregated log).", IN, metavar="COLUMN"),
-]
-DistinctOpt = Annotated[
-    bool, _opt("--distinct-keys", "Accept a key column with repeated values: one entry per distinct value.", IN)
-]
-MemoryOpt = Annotated[
-    Optional[str],
-    _opt(
-        "--memory-limit",
-        "Cap DuckDB's memory while reading the log, e.g. 2GB (it spills to disk beyond).",
-        IN,
-        metavar="SIZE",
-    ),
-]
-PageSizeOpt = Annotated[
-    Optional[list[int]],
-    _opt("--page-size", "Page size in bytes (repeatable; default 4096, 8192, 16384).", GEO, metavar="BYTES"),
-]
-KppOpt = Annotated[
-    Optional[list[int]],
-    _opt("--keys-per-page", "Capacity c in keys per page, instead of a page size (repeatable).", GEO, metavar="C"),
-]
-HeaderOpt = Annotated[int, _opt("--page-header", "Bytes per page kept for the header.", GEO, metavar="BYTES")]
-RecordOpt = Annotated[int, _opt("--record-pointer", "Bytes per record pointer.", GEO, metavar="BYTES")]
-ChildOpt = Annotated[int, _opt("--child-pointer", "Bytes per child-page pointer.", GEO, metavar="BYTES")]
-KeyBytesOpt = Annotated[
-    Optional[float],
-    _opt("--key-bytes", "Bytes per key (default: from the column type or measured).", GEO, metavar="BYTES"),
-]
-ModelOpt = Annotated[
-    str,
-    _opt(
-        "--model",
-        "Index structure: btree (keys in every page), bplus (keys only in leaves) or both side by side.",
-        GEO,
-        metavar="btree|bplus|both",
-    ),
-]
-FanoutOpt = Annotated[
-    Optional[int],
-    _opt(
-        "--fanout",
-        "bplus: children per internal page, with --keys-per-page (which then sets the leaf capacity).",
-        GEO,
-        min=2,
-        metavar="F",
-    ),
-]
-FillOpt = Annotated[float, _opt("--fill-factor", "bplus: share of each leaf page filled (0..1].", GEO, metavar="SHARE")]
-TruncateOpt = Annotated[
-    bool,
-    _opt(
-        "--truncate-separators",
-        "bplus, string keys: shorten separators to the shortest prefix that still separates two leaves.",
-        GEO,
-    ),
-]
-MaxPagesOpt = Annotated[
-    str,
-    _opt(
-        "--max-pages",
-        "Most pages a layout may use: even (the even split's count), a ratio such as 1.25x, a page count, or none.",
-        BUD,
-        metavar="SPEC",
-    ),
-]
-MaxHeightOpt = Annotated[
-    str, _opt("--max-height", "Most levels a layout may have: even, even+K, a number, or none.", BUD, metavar="SPEC")
-]
-FrontierOpt = Annotated[
-    bool,
-    _opt("--frontier/--no-frontier", "Also plan each page size at 1.1x to 2x the pages and with no page limit.", BUD),
-]
-JsonOpt = Annotated[bool, _opt("--json", "Print one JSON object on stdout instead of the report.", OUT)]
-ExportOpt = Annotated[
-    Optional[Path],
-    _opt(
-        "--export", "Write the recommended pages and their keys (.csv, .json, .parquet, .duckdb).", OUT, metavar="FILE"
-    ),
-]
-ExportForOpt = Annotated[
-    Optional[int],
-    _opt("--export-for", "Export only the plan for this page size (or keys per page).", OUT, metavar="SIZE"),
-]
-ForceOpt = Annotated[bool, _opt("--force", "Replace an existing output file.", OUT)]
-SvgOpt = Annotated[Optional[Path], _opt("--svg", "Also save the whole report as an SVG picture.", OUT, metavar="FILE")]
-HtmlOpt = Annotated[Optional[Path], _opt("--html", "Also save the whole report as an HTML page.", OUT, metavar="FILE")]
-PoolOpt = Annotated[
-    Optional[list[int]],
-    _opt(
-        "--pool-pages",
-        "Buffer pool size in pages (repeatable; default 0.1% to 10% of the index).",
-        WL,
-        min=1,
-        metavar="PAGES",
-    ),
-]
-OrderOpt = Annotated[
-    Optional[str],
-    _opt(
-        "--order-column",
-        "Log column giving lookup order (time or sequence): enables the LRU replay.",
-        WL,
-        metavar="COLUMN",
-    ),
-]
-ReplayOpt = Annotated[
-    int, _opt("--replay-limit", "Replay at most this many lookups (the earliest).", WL, min=1, metavar="N")
-]
-StorageOpt = Annotated[
-    str,
-    _opt(
-        "--storage",
-        "Storage profile for the page-size choice: nvme, sata-ssd, network-disk, hdd, or LATENCY_US,MB_PER_S.",
-        WL,
-        metavar="PROFILE",
-    ),
-]
-PoolBytesOpt = Annotated[
-    Optional[int],
-    _opt(
-        "--pool-bytes",
-        "Buffer pool bytes for the page-size choice (default: 1% of the index).",
-        WL,
-        min=1,
-        metavar="BYTES",
-    ),
-]
-HoldoutOpt = Annotated[
-    float,
-    _opt(
-        "--holdout",
-        "With --order-column: share of the latest lookups held out to judge a plan fitted on the rest (0 turns it off).",
-        WL,
-        min=0.0,
-        max=0.9,
-        metavar="SHARE",
-    ),
-]
-ScanOpt = Annotated[
-    Optional[str],
-    _opt(
-        "--scan-to",
-        "Log column with a range scan's upper bound; rows where it is set scan from the looked-up value to it.",
-        WL,
-        metavar="COLUMN",
-    ),
-]
-SmoothOpt = Annotated[
-    float,
-    _opt(
-        "--smoothing",
-        "Blend the fitted histogram with uniform weight: 0 none .. 1 all uniform.",
-        SOLVE,
-        min=0.0,
-        max=1.0,
-        metavar="ALPHA",
-    ),
-]
-ExactOpt = Annotated[
-    float,
-    _opt(
-        "--exact-seconds",
-        "Run the exact optimiser when it should finish within this many seconds per page size.",
-        SOLVE,
-        min=0.0,
-        metavar="SECONDS",
-    ),
-]
 
 
 def _run(
@@ -331,33 +137,6 @@ def _run(
             console.print(f"Report saved to {path}", style="green")
 
 
-def read_query(path: Path | None) -> str | None:
-    """The text of a --log-sql file (None without one)."""
-    if path is None:
-        return None
-    try:
-        return Path(path).read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputNotFound(f"--log-sql file not found: {path}") from None
-    except (OSError, UnicodeDecodeError) as e:
-        raise InputInvalid(f"cannot read --log-sql file {path}: {e}") from None
-
-
-def parse_storage(text: str) -> StorageProfile:
-    """A named profile, or 'latency_us,mb_per_s' for a custom one."""
-    if text in PROFILES:
-        return PROFILES[text]
-    try:
-        lat, bw = (float(x) for x in text.split(","))
-    except ValueError:
-        raise SettingInvalid(
-            f"--storage must be one of {', '.join(PROFILES)} or LATENCY_US,MB_PER_S, got {text!r}"
-        ) from None
-    if lat < 0 or bw <= 0:
-        raise SettingInvalid("--storage latency must be >= 0 and bandwidth > 0")
-    return StorageProfile("custom", lat, bw)
-
-
 @app.command("recommend")
 def recommend_cmd(
     database: DatabaseArg,
@@ -399,8 +178,8 @@ def recommend_cmd(
     show_frontier: FrontierOpt = True,
 ) -> None:
     """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
-    with _guard():
-        _check_model(model, keys_per_page, fanout)
+    with guard():
+        check_model(model, keys_per_page, fanout)
         settings = PageSettings(
             list(page_size or []),
             list(keys_per_page or []),
@@ -447,156 +226,6 @@ def recommend_cmd(
         )
 
 
-def _check_model(model: str, keys_per_page, fanout) -> None:
-    if model not in ("btree", "bplus", "both"):
-        raise SettingInvalid(f"--model must be btree, bplus or both, got {model!r}")
-    if model in ("bplus", "both") and keys_per_page and not fanout:
-        raise SettingInvalid("--model bplus with --keys-per-page needs --fanout")
-
-
-@app.command("build")
-def build_cmd(
-    database: DatabaseArg,
-    table: TableOpt,
-    key: KeyOpt,
-    out: Annotated[
-        Path, _opt("--out", "The index file to write (refused if it exists, unless --force).", OUT, metavar="FILE")
-    ],
-    log: LogOpt = None,
-    log_sql: LogSqlOpt = None,
-    log_column: LogColumnOpt = None,
-    count_column: CountColumnOpt = None,
-    page_size: Annotated[
-        Optional[int], _opt("--page-size", "Page size in bytes of the file (default 4096).", GEO, metavar="BYTES")
-    ] = None,
-    keys_per_page: Annotated[
-        Optional[int],
-        _opt(
-            "--keys-per-page",
-            "Capacity c instead of the geometry formula (the file still needs --page-size).",
-            GEO,
-            metavar="C",
-        ),
-    ] = None,
-    page_header: HeaderOpt = PageSettings.page_header,
-    record_pointer: RecordOpt = PageSettings.record_pointer,
-    child_pointer: ChildOpt = PageSettings.child_pointer,
-    key_bytes: KeyBytesOpt = None,
-    model: Annotated[str, _opt("--model", "Index structure: btree or bplus.", GEO, metavar="btree|bplus")] = "btree",
-    fanout: FanoutOpt = None,
-    fill_factor: FillOpt = 1.0,
-    layout: Annotated[
-        str,
-        _opt(
-            "--layout",
-            "Which layout to write: advised or even (the even split, to compare).",
-            OUT,
-            metavar="advised|even",
-        ),
-    ] = "advised",
-    max_pages: MaxPagesOpt = "even",
-    max_height: MaxHeightOpt = "even",
-    smoothing: SmoothOpt = 0.0,
-    exact_seconds: ExactOpt = 5.0,
-    distinct_keys: DistinctOpt = False,
-    memory_limit: MemoryOpt = None,
-    force: ForceOpt = False,
-    as_json: JsonOpt = False,
-) -> None:
-    """Write the advised (or even-split) layout as a file of fixed-size pages you can probe."""
-    with _guard():
-        from .advise import plan_one
-        from .build import build_index
-
-        if layout not in ("advised", "even"):
-            raise SettingInvalid(f"--layout must be advised or even, got {layout!r}")
-        _check_model(model, [keys_per_page] if keys_per_page else None, fanout)
-        if model == "both":
-            raise SettingInvalid("a build writes one structure: --model btree or bplus")
-        if out.exists() and not force:
-            raise OutputRefused(f"{out} exists; pass --force to replace it")
-        size = page_size or 4096
-        settings = PageSettings(
-            [] if keys_per_page else [size],
-            [keys_per_page] if keys_per_page else [],
-            page_header,
-            record_pointer,
-            child_pointer,
-            key_bytes,
-            model,
-            fill_factor,
-        )
-        request = Request(
-            settings,
-            smoothing,
-            fanout,
-            exact_seconds=exact_seconds,
-            budget=BudgetSpec(max_pages, max_height),
-            frontier=False,
-        )
-        query = read_query(log_sql)
-        with load_workload(
-            database, table, key, log, log_column, count_column, distinct_keys, memory_limit, query
-        ) as wl:
-            plan = plan_one(wl, request)
-            summary = build_index(wl, plan, out, layout, force, size)
-        if as_json:
-            print(json.dumps(summary, indent=2))
-        else:
-            Console(highlight=False).print(
-                f"Wrote {summary['path']}: {summary['pages']:,} pages of {summary['page_size']:,} bytes "
-                f"({summary['layout']} {summary['model']} layout), predicted {summary['predicted_page_reads']:.3f} page reads "
-                "per lookup. Measure it with: advisor probe FILE DATABASE --log LOG"
-            )
-
-
-@app.command("probe")
-def probe_cmd(
-    index_file: Annotated[Path, typer.Argument(help="An index file written by advisor build.", metavar="FILE")],
-    database: DatabaseArg,
-    log: Annotated[
-        str,
-        _opt(
-            "--log", "Lookup log to replay: a table in the database, or a .parquet/.csv file.", IN, metavar="TABLE|FILE"
-        ),
-    ],
-    log_column: LogColumnOpt = None,
-    count_column: CountColumnOpt = None,
-    order_column: Annotated[
-        Optional[str],
-        _opt("--order-column", "Replay the log in this column's order (default: as stored).", IN, metavar="COLUMN"),
-    ] = None,
-    limit: Annotated[
-        Optional[int], _opt("--limit", "Replay at most this many log rows.", IN, min=1, metavar="N")
-    ] = None,
-    pool_pages: Annotated[
-        int,
-        _opt(
-            "--pool-pages",
-            "An LRU pool of this many pages in front of the file (0: every page visit is a read).",
-            WL,
-            min=0,
-            metavar="PAGES",
-        ),
-    ] = 0,
-    cold: Annotated[
-        bool, _opt("--cold", "Drop the file from the operating system's page cache before the replay.", WL)
-    ] = False,
-    as_json: JsonOpt = False,
-) -> None:
-    """Replay a log against an index file: page reads counted against the model's prediction."""
-    with _guard():
-        from .build import probe_index
-
-        res = probe_index(index_file, database, log, log_column, count_column, order_column, limit, pool_pages, cold)
-        if as_json:
-            print(json.dumps(res.as_dict(), indent=2))
-        else:
-            Console(highlight=False).print(render_probe(res.as_dict(), str(index_file)))
-        if res.wrong_rows:
-            raise LayoutInvalid(f"{res.wrong_rows} found keys returned a row number that is not their table row")
-
-
 @app.command("demo")
 def demo_cmd(
     directory: Annotated[
@@ -619,7 +248,7 @@ def demo_cmd(
     max_height: MaxHeightOpt = "even",
 ) -> None:
     """Build the invented demo catalogue (once per seed) and print the full report on it."""
-    with _guard():
+    with guard():
         with steps() as progress:
             progress.step("building the demo database (once per seed)")
             db = build_demo(directory, seed=seed, keys=keys, lookups=lookups)
@@ -630,6 +259,10 @@ def demo_cmd(
         settings = PageSettings(list(page_size or []), list(keys_per_page or []), model=model)
         request = Request(settings, order_column="lookup_seq", budget=BudgetSpec(max_pages, max_height))
         _run(db, DEMO_TABLE, DEMO_KEY, DEMO_LOG, request, as_json, export, None, force, svg=svg, html=html)
+
+
+app.command("build")(build_cmd)
+app.command("probe")(probe_cmd)
 
 
 def main() -> None:  # pragma: no cover - console script entry

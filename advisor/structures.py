@@ -29,8 +29,6 @@ from .optimize.bplus import (
     balanced_bplus,
     bplus_chain,
     bplus_height,
-    bplus_level_bound,
-    bplus_window_bound,
     bplus_work,
     full_leaves_balanced,
     full_leaves_exact,
@@ -39,6 +37,7 @@ from .optimize.bplus import (
     solve_bplus_exact,
     uniform_bplus,
 )
+from .optimize.bplus_bounds import bplus_level_bound, bplus_window_bound
 from .optimize.bplus_constrained import bplus_constrained_work, solve_bplus_within
 from .optimize.bplus_within import bplus_within_layout, hot_leaf_candidates
 from .optimize.constrained import ConstrainedResult, constrained_bytes, constrained_work, solve_within

@@ -81,7 +81,7 @@ class Workload:
 
     def log_column(self, name: str) -> str:
         """Quoted name of a log column (exact, then case-insensitive match), or InputNotFound."""
-        return quote(_find(self.log_columns, name, f"log {self.log}"))
+        return quote(find_column(self.log_columns, name, f"log {self.log}"))
 
     def close(self) -> None:
         self.con.close()
@@ -101,7 +101,7 @@ def _columns(con, relation_sql: str, what: str) -> dict[str, str]:
     return {r[0]: str(r[1]) for r in rows}
 
 
-def _find(columns: dict[str, str], name: str, what: str) -> str:
+def find_column(columns: dict[str, str], name: str, what: str) -> str:
     """Exact column name match first, then case-insensitive (DuckDB's own rule)."""
     if name in columns:
         return name
@@ -111,7 +111,7 @@ def _find(columns: dict[str, str], name: str, what: str) -> str:
     raise InputNotFound(f"column {name!r} not found in {what} (columns: {', '.join(columns) or 'none'})")
 
 
-def _table_sql(con, table: str) -> str:
+def table_sql(con, table: str) -> str:
     found = con.execute(
         "SELECT table_schema, table_name FROM information_schema.tables "
         "WHERE lower(table_name) = lower(?) ORDER BY table_name = ? DESC LIMIT 1",
@@ -142,7 +142,7 @@ def query_log(con, text: str) -> QueryLog:
     return QueryLog(rel)
 
 
-def _log_source(con, log: str) -> tuple[str, str]:
+def log_source(con, log: str) -> tuple[str, str]:
     """SQL relation for the log and a human name: a query, a file (or a directory or glob of
     Parquet files, hive partitions read as columns) DuckDB reads, or a table."""
     if isinstance(log, QueryLog):
@@ -164,7 +164,7 @@ def _log_source(con, log: str) -> tuple[str, str]:
         return rel, f"directory {log}"
     looks_like_file = log.lower().endswith(LOG_FILE_SUFFIXES) or os.sep in log or os.path.exists(log)
     if not looks_like_file:
-        return _table_sql(con, log), f"table {log}"
+        return table_sql(con, log), f"table {log}"
     path = Path(log)
     if not path.exists():
         raise InputNotFound(f"log file not found: {log}")
@@ -229,9 +229,9 @@ def load_workload(
 
 
 def _load(con, table, key, log, log_column, count_column, distinct_keys) -> Workload:
-    tsql = _table_sql(con, table)
+    tsql = table_sql(con, table)
     tcols = _columns(con, tsql, f"table {table}")
-    kcol = _find(tcols, key, f"table {table}")
+    kcol = find_column(tcols, key, f"table {table}")
     ktype = tcols[kcol]
     if ktype.upper().endswith("]") or ktype.upper().startswith(("STRUCT", "MAP", "UNION")):
         raise InputInvalid(f"key column {kcol!r} has type {ktype}, which has no single sort order for an index")
@@ -262,18 +262,18 @@ def _load(con, table, key, log, log_column, count_column, distinct_keys) -> Work
     if log is None:
         hist = Histogram(np.zeros(n), np.zeros(n + 1), 0.0)
         return Workload(con, hist, ktype, key_bytes, table, kcol, "", info)
-    lsql, lname = _log_source(con, log)
+    lsql, lname = log_source(con, log)
     lcols = _columns(con, lsql, f"log {lname}")
-    vcol = _find(lcols, log_column or kcol, f"log {lname}")
+    vcol = find_column(lcols, log_column or kcol, f"log {lname}")
     weight = "1"
     if count_column:
-        ccol = _find(lcols, count_column, f"log {lname}")
+        ccol = find_column(lcols, count_column, f"log {lname}")
         weight = _checked_count(con, lsql, ccol, lcols[ccol], lname)
     v = quote(vcol)
     info |= {"log_column": vcol, "log_type": lcols[vcol], "count_column": count_column}
     probes = f"SELECT {v} AS v, sum({weight})::DOUBLE AS w FROM {lsql} GROUP BY {v}"
     try:
-        p, q = _aggregate(con, probes, n)
+        p, q = aggregate(con, probes, n)
         nulls = con.execute(f"SELECT coalesce(sum({weight})::DOUBLE, 0) FROM {lsql} WHERE {v} IS NULL").fetchall()[0][0]
     except (duckdb.BinderException, duckdb.ConversionException) as e:
         raise InputInvalid(
@@ -284,7 +284,7 @@ def _load(con, table, key, log, log_column, count_column, distinct_keys) -> Work
     return Workload(con, hist, ktype, key_bytes, table, kcol, lname, info, lsql, lcols, weight)
 
 
-def _aggregate(con, probes_sql: str, n: int) -> tuple[np.ndarray, np.ndarray]:
+def aggregate(con, probes_sql: str, n: int) -> tuple[np.ndarray, np.ndarray]:
     """Hit and gap weights from a (v, w) probes query: ASOF join to the ranked keys, grouped."""
     agg = con.execute(
         f"WITH probes AS ({probes_sql}) "
@@ -298,20 +298,6 @@ def _aggregate(con, probes_sql: str, n: int) -> tuple[np.ndarray, np.ndarray]:
     p = np.bincount(r[hit], weights=w[hit], minlength=n)[:n] if n else np.zeros(0)
     q = np.bincount(r[~hit] + 1, weights=w[~hit], minlength=n + 1)[: n + 1]
     return p.astype(np.float64), q.astype(np.float64)
-
-
-def load_split(wl: Workload, order_column: str, holdout: float) -> tuple[Histogram, Histogram]:
-    """Histograms of the earlier (1 - holdout) and the later ``holdout`` share of the log's rows,
-    by ``order_column`` (ties broken by DuckDB's sort)."""
-    lsql, o = wl.log_sql, wl.log_column(order_column)
-    v, w = quote(wl.info["log_column"]), wl.weight_sql
-    ranked = f"SELECT {v} AS v, {w} AS w, percent_rank() OVER (ORDER BY {o}) AS pr FROM {lsql}"
-    out = []
-    for cond in (f"pr < {1 - holdout}", f"pr >= {1 - holdout}"):
-        probes = f"SELECT v, sum(w)::DOUBLE AS w FROM ({ranked}) WHERE {cond} GROUP BY v"
-        p, q = _aggregate(wl.con, probes, wl.hist.n)
-        out.append(Histogram(p, q))
-    return out[0], out[1]
 
 
 def _checked_count(con, lsql: str, col: str, ctype: str, lname: str) -> str:
@@ -350,73 +336,3 @@ def _checked_count(con, lsql: str, col: str, ctype: str, lname: str) -> str:
         if inf:
             raise InputInvalid(f"count column {col!r} in {lname} has {inf} infinite value(s)")
     return f"{c}::DOUBLE"
-
-
-def load_replay(wl: Workload, order_column: str, limit: int = 20_000_000):
-    """The log's non-NULL lookups in ``order_column`` order (the first ``limit`` rows), as outcome ids."""
-    from .bufferpool import Replay
-
-    lsql, o = wl.log_sql, wl.log_column(order_column)
-    v = quote(wl.info["log_column"])
-    w = f"({wl.weight_sql})::BIGINT"
-    n = wl.hist.n
-    rows = wl.con.execute(
-        f"WITH lg AS (SELECT {v} AS v, {o} AS o, {w} AS w FROM {lsql} WHERE {v} IS NOT NULL "
-        f"ORDER BY {o} LIMIT {int(limit)}) "
-        f"SELECT CASE WHEN lg.v = kk.k THEN kk.r ELSE {n} + coalesce(kk.r, -1) + 1 END AS id, lg.w "
-        f"FROM lg ASOF LEFT JOIN {KEYS_TABLE} kk ON lg.v >= kk.k ORDER BY lg.o"
-    ).fetchnumpy()
-    ids = np.asarray(rows["id"], dtype=np.int64)
-    reps = np.asarray(rows["w"], dtype=np.int64)
-    return Replay(np.repeat(ids, reps)[: int(limit)], n)
-
-
-def load_scans(wl: Workload, scan_to: str) -> tuple[np.ndarray, np.ndarray, np.ndarray, Histogram]:
-    """Range scans (first rank, last rank, weight) from log rows whose ``scan_to`` is not NULL,
-    and the histogram of the point lookups alone (rows where it is NULL)."""
-    lsql, hi = wl.log_sql, wl.log_column(scan_to)
-    v, w = quote(wl.info["log_column"]), wl.weight_sql
-    scans = (
-        f"SELECT {v} AS lo, {hi} AS hi, sum({w})::DOUBLE AS w FROM {lsql} "
-        f"WHERE {v} IS NOT NULL AND {hi} IS NOT NULL GROUP BY ALL"
-    )
-    rows = wl.con.execute(
-        f"WITH s AS ({scans}), "
-        f"a AS (SELECT s.*, CASE WHEN kk.k = s.lo THEN kk.r ELSE coalesce(kk.r, -1) + 1 END AS first "
-        f"      FROM s ASOF LEFT JOIN {KEYS_TABLE} kk ON s.lo >= kk.k) "
-        f"SELECT a.first, coalesce(k2.r, -1) AS last, sum(a.w) AS w "
-        f"FROM a ASOF LEFT JOIN {KEYS_TABLE} k2 ON a.hi >= k2.k GROUP BY ALL"
-    ).fetchnumpy()
-    points = f"SELECT {v} AS v, sum({w})::DOUBLE AS w FROM {lsql} WHERE {hi} IS NULL GROUP BY {v}"
-    p, q = _aggregate(wl.con, points, wl.hist.n)
-    first = np.asarray(rows["first"], dtype=np.int64)
-    last = np.asarray(rows["last"], dtype=np.int64)
-    return first, last, np.asarray(rows["w"], dtype=np.float64), Histogram(p, q)
-
-
-def truncated_separator_bytes(wl: Workload, leaf_capacity: int) -> float:
-    """Mean width of suffix-truncated separators between the even split's leaves.
-
-    The separator before leaf t only has to sort above the last key of leaf t-1, so the
-    shortest prefix of leaf t's first key that differs from that key (common prefix + 1 byte)
-    suffices (suffix truncation, common practice for string keys); plus the 2-byte length prefix.
-    """
-    L = int(leaf_capacity)
-    rows = (
-        wl.con.execute(
-            f"SELECT a.k::BLOB, b.k::BLOB FROM {KEYS_TABLE} a JOIN {KEYS_TABLE} b ON b.r = a.r + 1 WHERE b.r % {L} = 0"
-        ).fetchall()
-        if wl.key_type.upper().startswith(("VARCHAR", "BLOB"))
-        else []
-    )
-    if not rows:
-        return wl.key_bytes
-    widths = []
-    for left, right in rows:
-        lcp = 0
-        for x, y in zip(left, right, strict=False):
-            if x != y:
-                break
-            lcp += 1
-        widths.append(min(len(right), lcp + 1))
-    return float(np.mean(widths)) + LENGTH_PREFIX

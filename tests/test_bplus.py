@@ -15,13 +15,12 @@ from advisor.layout import check_layout, evaluate
 from advisor.optimize.bplus import (
     balanced_bplus,
     bplus_height,
-    bplus_level_bound,
     bplus_weights,
-    bplus_window_bound,
     hot_first_bplus,
     solve_bplus_exact,
     uniform_bplus,
 )
+from advisor.optimize.bplus_bounds import bplus_level_bound, bplus_window_bound
 
 from .conftest import brute_force_bplus, random_hist
 
@@ -145,7 +144,7 @@ def test_bplus_through_the_cli(tmp_path):
 
 
 def test_bplus_scan_pages_follow_the_leaf_chain():
-    from advisor.layout import scan_pages
+    from advisor.scans import scan_pages
 
     layout = uniform_bplus(100, 10, 4)
     depth = layout.depths().max()
@@ -354,7 +353,7 @@ def test_balanced_shape_exact_equals_brute_force(data, L, F):
 
 def test_disjoint_runs_dp_matches_brute_force():
 
-    from advisor.optimize.bplus import best_disjoint_windows
+    from advisor.optimize.bplus_bounds import best_disjoint_windows
 
     rng = np.random.default_rng(0)
     for _ in range(150):

@@ -149,7 +149,7 @@ def test_buffer_pool_and_lru_replay(small_db):
         assert r["optimized_pinned"] <= p["optimized"]["expected_page_reads"]
     assert run["inputs"]["replayed_lookups"] == 32_000
     with load_workload(small_db, "items", "item_no", "probes") as wl:
-        from advisor.workload import load_replay
+        from advisor.logreads import load_replay
 
         replay = load_replay(wl, "seq")
         n = wl.hist.n

@@ -10,7 +10,8 @@ from hypothesis import strategies as st
 from advisor.balanced import balanced_miss_bound
 from advisor.histogram import Histogram
 from advisor.layout import check_layout
-from advisor.optimize.bplus import bplus_weights, bplus_window_bound, hot_first_bplus, uniform_bplus
+from advisor.optimize.bplus import bplus_weights, hot_first_bplus, uniform_bplus
+from advisor.optimize.bplus_bounds import bplus_window_bound
 from advisor.planner import PlanOptions, plan_capacity
 
 

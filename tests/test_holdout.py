@@ -11,7 +11,8 @@ from typer.testing import CliRunner
 
 from advisor.cli import app
 from advisor.histogram import Histogram
-from advisor.workload import load_split, load_workload
+from advisor.logreads import load_split
+from advisor.workload import load_workload
 
 
 def test_smoothing_blends_toward_uniform():

@@ -10,9 +10,10 @@ import pytest
 from typer.testing import CliRunner
 
 from advisor.cli import app
-from advisor.layout import scan_pages
+from advisor.logreads import load_scans
 from advisor.optimize import hot_first_layout, uniform_layout
-from advisor.workload import load_scans, load_workload
+from advisor.scans import scan_pages
+from advisor.workload import load_workload
 
 from .conftest import path_finder, random_hist
 

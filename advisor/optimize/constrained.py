@@ -32,7 +32,7 @@ import numpy as np
 
 from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
-from .exact import _BLOCK, exact_work, forest_chain, length_limits, row_min_of_sums
+from .exact import ROW_BLOCK, exact_work, forest_chain, length_limits, row_min_of_sums
 from .topdown import build_top_down
 from .uniform import min_height
 
@@ -97,7 +97,7 @@ class _Levels:
         for L in range(0, n + 1):  # end[0][j, n - L] = C(j - L, j)
             j = np.arange(L, n + 1)
             end[0][j, n - L] = C[j - L, L]
-        buf = np.empty(min(_BLOCK, (n + 1) ** 2) + n + 1)
+        buf = np.empty(min(ROW_BLOCK, (n + 1) ** 2) + n + 1)
         g = np.empty(n + 1)
         order = sorted(split)
         for L in range(1, n + 1):

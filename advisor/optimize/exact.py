@@ -142,7 +142,7 @@ def _rebuild(t: _Tables, n: int, c: int) -> Layout:
 FLOAT_OPS_PER_SECOND = 3.2e8  # element operations per second, float64 tables (this machine kind)
 INT_OPS_PER_SECOND = 7.5e8  # the same with int32 tables; see benchmarks/results/exact.txt
 _INT_LIMIT = 2**29  # largest cost kept in int32: two of them still add without overflow
-_BLOCK = 1 << 15  # elements per row block of one minimisation (256 KiB of float64)
+ROW_BLOCK = 1 << 15  # elements per row block of one minimisation (256 KiB of float64)
 
 
 def forest_chain(*sizes: int) -> dict[int, tuple[int, int]]:
@@ -210,10 +210,10 @@ def table_type(integer: bool) -> tuple[type, float]:
 
 
 def row_min_of_sums(left: np.ndarray, right: np.ndarray, buf: np.ndarray, out: np.ndarray) -> None:
-    """out[i] = min_t left[i, t] + right[i, t], in row blocks of about _BLOCK elements so the
+    """out[i] = min_t left[i, t] + right[i, t], in row blocks of about ROW_BLOCK elements so the
     sums stay in cache (``buf`` holds at least one block)."""
     m, width = left.shape
-    rows = max(1, _BLOCK // max(width, 1))
+    rows = max(1, ROW_BLOCK // max(width, 1))
     for r0 in range(0, m, rows):
         r1 = min(m, r0 + rows)
         block = buf[: (r1 - r0) * width].reshape(r1 - r0, width)
@@ -268,7 +268,7 @@ def _forest_tables(
     P = np.concatenate([[0.0], np.cumsum(p)])
     Q = np.concatenate([[0.0], np.cumsum(q)])
     order = sorted(split)
-    buf = np.empty(min(_BLOCK, (n + 1) ** 2) + n + 1, dtype=dtype)
+    buf = np.empty(min(ROW_BLOCK, (n + 1) ** 2) + n + 1, dtype=dtype)
     g = np.empty(n + 1, dtype=dtype)
     for L in range(1, n + 1):
         m = n - L + 1

@@ -1,0 +1,187 @@
+"""The build and probe commands: write a plan as a paged index file, and measure one."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+from typing import Annotated
+
+import typer
+from rich.console import Console
+
+from .advise import PageSettings, Request
+from .budget import BudgetSpec
+from .cli_options import (
+    GEO,
+    IN,
+    OUT,
+    WL,
+    ChildOpt,
+    CountColumnOpt,
+    DatabaseArg,
+    DistinctOpt,
+    ExactOpt,
+    FanoutOpt,
+    FillOpt,
+    ForceOpt,
+    HeaderOpt,
+    JsonOpt,
+    KeyBytesOpt,
+    KeyOpt,
+    LogColumnOpt,
+    LogOpt,
+    LogSqlOpt,
+    MaxHeightOpt,
+    MaxPagesOpt,
+    MemoryOpt,
+    RecordOpt,
+    SmoothOpt,
+    TableOpt,
+    option,
+)
+from .cli_support import check_model, guard, read_query
+from .errors import LayoutInvalid, OutputRefused, SettingInvalid
+from .report import render_probe
+from .workload import load_workload
+
+
+def build_cmd(
+    database: DatabaseArg,
+    table: TableOpt,
+    key: KeyOpt,
+    out: Annotated[
+        Path, option("--out", "The index file to write (refused if it exists, unless --force).", OUT, metavar="FILE")
+    ],
+    log: LogOpt = None,
+    log_sql: LogSqlOpt = None,
+    log_column: LogColumnOpt = None,
+    count_column: CountColumnOpt = None,
+    page_size: Annotated[
+        int | None, option("--page-size", "Page size in bytes of the file (default 4096).", GEO, metavar="BYTES")
+    ] = None,
+    keys_per_page: Annotated[
+        int | None,
+        option(
+            "--keys-per-page",
+            "Capacity c instead of the geometry formula (the file still needs --page-size).",
+            GEO,
+            metavar="C",
+        ),
+    ] = None,
+    page_header: HeaderOpt = PageSettings.page_header,
+    record_pointer: RecordOpt = PageSettings.record_pointer,
+    child_pointer: ChildOpt = PageSettings.child_pointer,
+    key_bytes: KeyBytesOpt = None,
+    model: Annotated[str, option("--model", "Index structure: btree or bplus.", GEO, metavar="btree|bplus")] = "btree",
+    fanout: FanoutOpt = None,
+    fill_factor: FillOpt = 1.0,
+    layout: Annotated[
+        str,
+        option(
+            "--layout",
+            "Which layout to write: advised or even (the even split, to compare).",
+            OUT,
+            metavar="advised|even",
+        ),
+    ] = "advised",
+    max_pages: MaxPagesOpt = "even",
+    max_height: MaxHeightOpt = "even",
+    smoothing: SmoothOpt = 0.0,
+    exact_seconds: ExactOpt = 5.0,
+    distinct_keys: DistinctOpt = False,
+    memory_limit: MemoryOpt = None,
+    force: ForceOpt = False,
+    as_json: JsonOpt = False,
+) -> None:
+    """Write the advised (or even-split) layout as a file of fixed-size pages you can probe."""
+    with guard():
+        from .advise import plan_one
+        from .build import build_index
+
+        if layout not in ("advised", "even"):
+            raise SettingInvalid(f"--layout must be advised or even, got {layout!r}")
+        check_model(model, [keys_per_page] if keys_per_page else None, fanout)
+        if model == "both":
+            raise SettingInvalid("a build writes one structure: --model btree or bplus")
+        if out.exists() and not force:
+            raise OutputRefused(f"{out} exists; pass --force to replace it")
+        size = page_size or 4096
+        settings = PageSettings(
+            [] if keys_per_page else [size],
+            [keys_per_page] if keys_per_page else [],
+            page_header,
+            record_pointer,
+            child_pointer,
+            key_bytes,
+            model,
+            fill_factor,
+        )
+        request = Request(
+            settings,
+            smoothing,
+            fanout,
+            exact_seconds=exact_seconds,
+            budget=BudgetSpec(max_pages, max_height),
+            frontier=False,
+        )
+        query = read_query(log_sql)
+        with load_workload(
+            database, table, key, log, log_column, count_column, distinct_keys, memory_limit, query
+        ) as wl:
+            plan = plan_one(wl, request)
+            summary = build_index(wl, plan, out, layout, force, size)
+        if as_json:
+            print(json.dumps(summary, indent=2))
+        else:
+            Console(highlight=False).print(
+                f"Wrote {summary['path']}: {summary['pages']:,} pages of {summary['page_size']:,} bytes "
+                f"({summary['layout']} {summary['model']} layout), predicted "
+                f"{summary['predicted_page_reads']:.3f} page reads per lookup. "
+                "Measure it with: advisor probe FILE DATABASE --log LOG"
+            )
+
+
+def probe_cmd(
+    index_file: Annotated[Path, typer.Argument(help="An index file written by advisor build.", metavar="FILE")],
+    database: DatabaseArg,
+    log: Annotated[
+        str,
+        option(
+            "--log", "Lookup log to replay: a table in the database, or a .parquet/.csv file.", IN, metavar="TABLE|FILE"
+        ),
+    ],
+    log_column: LogColumnOpt = None,
+    count_column: CountColumnOpt = None,
+    order_column: Annotated[
+        str | None,
+        option("--order-column", "Replay the log in this column's order (default: as stored).", IN, metavar="COLUMN"),
+    ] = None,
+    limit: Annotated[
+        int | None, option("--limit", "Replay at most this many log rows.", IN, min=1, metavar="N")
+    ] = None,
+    pool_pages: Annotated[
+        int,
+        option(
+            "--pool-pages",
+            "An LRU pool of this many pages in front of the file (0: every page visit is a read).",
+            WL,
+            min=0,
+            metavar="PAGES",
+        ),
+    ] = 0,
+    cold: Annotated[
+        bool, option("--cold", "Drop the file from the operating system's page cache before the replay.", WL)
+    ] = False,
+    as_json: JsonOpt = False,
+) -> None:
+    """Replay a log against an index file: page reads counted against the model's prediction."""
+    with guard():
+        from .build import probe_index
+
+        res = probe_index(index_file, database, log, log_column, count_column, order_column, limit, pool_pages, cold)
+        if as_json:
+            print(json.dumps(res.as_dict(), indent=2))
+        else:
+            Console(highlight=False).print(render_probe(res.as_dict(), str(index_file)))
+        if res.wrong_rows:
+            raise LayoutInvalid(f"{res.wrong_rows} found keys returned a row number that is not their table row")
