@@ -180,6 +180,8 @@ def recommend_cmd(
     """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
     with guard():
         check_model(model, keys_per_page, fanout)
+        if holdout != 0.2 and holdout > 0 and not order_column:
+            raise SettingInvalid("--holdout needs --order-column (the log's order decides what is held out)")
         settings = PageSettings(
             list(page_size or []),
             list(keys_per_page or []),

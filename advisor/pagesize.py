@@ -93,9 +93,11 @@ def best_choice(rows: list[dict]) -> dict:
 
 
 def default_pool_bytes(plans: list[Plan]) -> int:
-    """1% of the even split's size at the smallest planned page size (at least one page)."""
+    """1% of the even split's size at the smallest planned page size, and at least one page of
+    the largest planned size (so no page size is judged with a pool of zero pages)."""
     sized = [p for p in plans if p.page_size]
     if not sized:
         return 0
     p = min(sized, key=lambda x: x.page_size)
-    return max(p.page_size, int(0.01 * p.uniform.pages * p.page_size))
+    largest = max(x.page_size for x in sized)
+    return max(largest, int(0.01 * p.uniform.pages * p.page_size))

@@ -29,7 +29,8 @@ def inputs_panel(run: dict) -> Panel:
     t.add_column()
     for k, v in run["inputs"].items():
         if v not in (None, "", []):
-            t.add_row(k.replace("_", " "), str(v))
+            text = f"{v:,}" if isinstance(v, int) and not isinstance(v, bool) else str(v)
+            t.add_row(k.replace("_", " "), text)
     return Panel(t, title="What was read", title_align="left")
 
 

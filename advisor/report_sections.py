@@ -44,7 +44,8 @@ def page_size_panel(run: dict) -> Table | None:
     pr = ch["profile"]
     t = Table(
         title=f"Page size choice on {pr['name']} storage ({pr['latency_us']:g} µs per read + "
-        f"{pr['bandwidth_mb_s']:g} MB/s; a rough common-practice profile)",
+        f"{pr['bandwidth_mb_s']:g} MB/s; "
+        + ("your figures)" if pr["name"] == "custom" else "a rough common-practice profile, from memory)"),
         title_justify="left",
     )
     for name in (
