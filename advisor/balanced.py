@@ -22,10 +22,12 @@ from .optimize.bplus_bounds import bplus_level_bound
 
 
 def balanced_bplus_layout(
-    hist: Histogram, uniform: Layout, pages: list[int] | None = None
+    hist: Histogram, uniform: Layout, pages: list[int] | None = None, max_pages: int | None = None
 ) -> tuple[Layout, list[int], str]:
-    """Best balanced layout for the pool sizes (default: 0.1%..10% of the even split's pages)."""
+    """Best balanced layout for the pool sizes (default: 0.1%..10% of the even split's pages),
+    within ``max_pages`` pages (default: the even split's own)."""
     L, n = uniform.capacity, hist.n
+    max_pages = uniform.pages if max_pages is None else max_pages
     sizes = pool_sizes(uniform.pages, pages=pages)
     if n <= L or hist.total <= 0:
         return uniform, sizes, "exact: one leaf, or nothing looked up"
@@ -37,6 +39,8 @@ def balanced_bplus_layout(
         candidates = _packings(hist, uniform, height, sizes)
     best, best_score, how = uniform, sum(base), "even split (no packing helped)"
     for name, cand in candidates:
+        if cand.pages > max_pages:  # never more pages than the even split (the default budget)
+            continue
         misses = pinned_misses(cand, hist, sizes)
         never_worse = all(m <= b + 1e-12 for m, b in zip(misses, base, strict=True))
         if never_worse and sum(misses) < best_score - (1e-12 if exact else 0.0):

@@ -121,6 +121,12 @@ def test_random_inputs_through_the_cli(tmp_path_factory, case):
     assert p["keys_per_page"] == c and p["page_size"] is None
     assert p["lower_bound"] <= p["optimized"]["expected_page_reads"] + 1e-9
     assert p["optimized"]["expected_page_reads"] <= p["uniform"]["expected_page_reads"] + 1e-9
+    # the default budget: never more pages or levels than the even split, in every frontier row
+    # that keeps the even split's page count, and in the export
+    assert p["optimized"]["pages"] <= p["uniform"]["pages"] and p["optimized"]["height"] <= p["uniform"]["height"]
+    for row in p["frontier"]:
+        assert row["height"] <= p["uniform"]["height"]
+        assert row["max_pages"] is None or row["pages"] <= row["max_pages"]
     with load_workload(db, "t", "k", "lg", count_column="n" if counts is not None else None, distinct_keys=True) as wl:
         if wl.hist.n == 0:
             return
