@@ -10,7 +10,7 @@ import numpy as np
 
 from .balanced import balanced_bplus_layout, balanced_miss_bound
 from .budget import BudgetSpec
-from .bufferpool import Replay, pinned_misses, pool_figures
+from .bufferpool import Replay, pinned_misses, pool_figures, pool_to_match
 from .errors import SettingInvalid
 from .frontier import frontier
 from .geometry import (
@@ -229,6 +229,9 @@ def _analyse_structure(wl: Workload, req: Request, reads: LogReads, on_plan) -> 
     plans = advise(wl.hist, unique, options, on_plan)
     pools = [pool_figures(p.uniform, p.recommended, wl.hist, reads.replay, req.pool_pages) for p in plans]
     run = run_dict(wl.hist, plans, _inputs(wl, reads), [], pools)
+    pool_bytes = req.pool_bytes or default_pool_bytes(plans)
+    for entry, p in zip(run["plans"], plans, strict=True):
+        entry["pool_equivalent"] = pool_equivalent(p, wl.hist, pool_bytes, req.pool_pages)
     if req.frontier:
         for idx, (entry, p) in enumerate(zip(run["plans"], plans, strict=True)):
             if on_plan:
@@ -255,6 +258,20 @@ def _analyse_structure(wl: Workload, req: Request, reads: LogReads, on_plan) -> 
     if choice["rows"]:
         run["page_size_choice"] = choice
     return Analysis(plans, run)
+
+
+def pool_equivalent(p: Plan, hist: Histogram, pool_bytes: int, pool_pages: list[int] | None) -> dict:
+    """The advice in memory terms: how large a pinned pool the even split needs to miss no more
+    than the advised layout with the run's pool (``pool_bytes`` or the first ``--pool-pages``)."""
+    size = p.page_size
+    pool = (pool_pages[0] if pool_pages else max(1, pool_bytes // size if size else 1)) if p.uniform.pages else 0
+    need = pool_to_match(p.uniform, p.recommended, hist, pool)
+    return {
+        "pool_pages": int(pool),
+        "even_split_pool_pages": int(need),
+        "pool_equivalent_pages": int(max(0, need - pool)),
+        "pool_equivalent_bytes": int(max(0, need - pool) * size) if size else None,
+    }
 
 
 def _inputs(wl: Workload, reads: LogReads) -> dict:

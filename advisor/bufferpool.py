@@ -124,3 +124,16 @@ def pool_figures(
         row |= {k: v[i] for k, v in rows.items()}
         out.append(row)
     return out
+
+
+def pool_to_match(even: Layout, advised: Layout, hist: Histogram, pool: int) -> int:
+    """Fewest pinned pages the even split needs to miss no more than the advised layout does
+    with ``pool`` pages: the advice's worth in buffer-pool memory is (that - pool) pages.
+    Exact on the pinned curves (misses fall as pages are added, hottest first)."""
+    target = pinned_misses(advised, hist, [pool])[0]
+    if hist.total <= 0 or even.pages == 0:
+        return pool
+    traffic = np.sort(page_traffic(even, hist))[::-1]
+    cum = np.concatenate([[0.0], np.cumsum(traffic)])
+    misses = (cum[-1] - cum) / hist.total  # misses[b] with b pages pinned, non-increasing
+    return int(np.argmax(misses <= target + 1e-12))

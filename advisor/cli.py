@@ -58,7 +58,7 @@ from .cli_options import (
     TableOpt,
     TruncateOpt,
 )
-from .cli_support import check_model, guard, parse_storage, read_query
+from .cli_support import check_model, guard, parse_storage, read_query, warn
 from .demo import DEMO_KEY, DEMO_LOG, DEMO_TABLE, build_demo
 from .errors import OutputRefused, SettingInvalid
 from .export import check_destination, check_target, write_layout
@@ -180,8 +180,23 @@ def recommend_cmd(
     """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
     with guard():
         check_model(model, keys_per_page, fanout)
-        if holdout != 0.2 and holdout > 0 and not order_column:
-            raise SettingInvalid("--holdout needs --order-column (the log's order decides what is held out)")
+        unused = [
+            (holdout != 0.2 and not order_column, "--holdout has no effect without --order-column"),
+            (replay_limit != 20_000_000 and not order_column, "--replay-limit has no effect without --order-column"),
+            (
+                fill_factor != 1.0 and model == "btree",
+                "--fill-factor applies to B+-tree leaves; the btree plan ignores it",
+            ),
+            (
+                fanout is not None and not keys_per_page,
+                "--fanout is set by the page size; it applies with --keys-per-page",
+            ),
+            (
+                (storage != "nvme" or pool_bytes) and not (page_size or not keys_per_page),
+                "--storage and --pool-bytes need page sizes (the page-size choice); with --keys-per-page only they do nothing",
+            ),
+        ]
+        warn([text for hit, text in unused if hit])
         settings = PageSettings(
             list(page_size or []),
             list(keys_per_page or []),

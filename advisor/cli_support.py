@@ -14,6 +14,13 @@ from .errors import AdvisorError, InputInvalid, InputNotFound, SettingInvalid
 from .pagesize import PROFILES, StorageProfile
 
 
+def warn(lines: list[str]) -> None:
+    """One line on stderr per option that has no effect in this run (the run goes on)."""
+    console = Console(stderr=True, highlight=False)
+    for line in lines:
+        console.print(f"advisor: warning: {line}", markup=False, soft_wrap=True)
+
+
 def fail(message: str, code: int) -> None:
     Console(stderr=True, highlight=False).print(f"advisor: error: {message}", markup=False, soft_wrap=True)
     raise typer.Exit(code)

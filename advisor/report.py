@@ -51,6 +51,35 @@ def traffic_panel(run: dict) -> Panel:
     return Panel(t, title="Traffic profile", title_align="left")
 
 
+def _bytes(n) -> str:
+    text = size_text(n)
+    return text[:-1] + " " + {"K": "KiB", "M": "MiB", "G": "GiB", "T": "TiB"}[text[-1]] if text[-1] in "KMGT" else text
+
+
+def summary_text(run: dict) -> Text:
+    """The recommendation per page size in one sentence: saving, space, worst case, memory worth."""
+    lines = []
+    for p in run["plans"]:
+        o, u = p["optimized"], p["uniform"]
+        where = f"{p['page_size']:,}-byte pages" if p["page_size"] else f"{p['keys_per_page']} keys per page"
+        what = "B+-tree" if p.get("model") == "bplus" else "B-tree"
+        if o["expected_page_reads"] >= u["expected_page_reads"] - 1e-12:
+            lines.append(f"{what}, {where}: keep the even split; nothing found within the budget reads fewer pages.")
+            continue
+        extra = o["pages"] - u["pages"]
+        space = "as many as the even split" if extra == 0 else f"{abs(extra):,} {'more' if extra > 0 else 'fewer'}"
+        size = f", {_bytes(o['bytes'])}" if o.get("bytes") else ""
+        worth = p.get("pool_equivalent", {}).get("pool_equivalent_bytes")
+        memory = f"; the even split would need {_bytes(worth)} more buffer pool to miss as little" if worth else ""
+        lines.append(
+            f"{what}, {where}: the advised layout reads {pct(p['saving'])} fewer pages per lookup "
+            f"({u['expected_page_reads']:.3f} -> {o['expected_page_reads']:.3f}) in {o['pages']:,} pages ({space}"
+            f"{size}) and {o['height']} levels; worst case {o['max_page_reads']} reads (even split "
+            f"{u['max_page_reads']}){memory}."
+        )
+    return Text("\n".join(lines))
+
+
 def plans_table(run: dict) -> Table:
     models = {p.get("model") for p in run["plans"]}
     what = {frozenset({"bplus"}): "B+-tree, c = keys per leaf", frozenset({"btree"}): "c = keys per page"}.get(
@@ -58,7 +87,7 @@ def plans_table(run: dict) -> Table:
     )
     t = Table(title=f"Page reads per lookup: even split vs advised layout ({what})", title_justify="left")
     for name in ("page bytes", "c", "even split", "advised", "saved", "lower bound", "gap", "optimal"):
-        t.add_column(name, justify="left" if name == "optimal" else "right")
+        t.add_column(name, justify="left" if name == "optimal" else "right", no_wrap=name == "optimal")
     for p in run["plans"]:
         o, u = p["optimized"], p["uniform"]
         even, advised = pair(u["expected_page_reads"], o["expected_page_reads"], ".3f")
@@ -70,11 +99,11 @@ def plans_table(run: dict) -> Table:
             pct(p["saving"]),
             f"{p['lower_bound']:.3f}",
             pct(p["certified_gap"]),
-            "proven" if p["proven_optimal"] else "bounded",
+            "proven" if p["proven_optimal"] else f"within {pct(p['certified_gap'])}",
         )
     t.caption = (
         "gap = (advised - lower bound) / lower bound: the advised layout is at most this far above the best "
-        "layout within the budget. optimal: proven, or bounded (no proof of optimality; the gap bounds it)"
+        "layout within the budget (proven bound). optimal: proven, or within the gap of the best possible"
     )
     t.caption_justify = "left"
     return t
@@ -142,32 +171,30 @@ def frontier_table(run: dict) -> Table | None:
     return t
 
 
-DEPTH_COLUMNS = 6  # depths shown one by one; deeper ones are summed into one "7+" column
+DEPTH_COLUMNS = 6  # depths shown one by one; deeper ones are summed into one "7+" row
 
 
 def depth_table(run: dict) -> Table:
-    """Share of lookups answered at each depth, even split vs recommended, per plan."""
+    """Share of lookups answered at each depth (rows), even split -> advised, per plan (columns);
+    depths past the sixth are summed into one "7+" row, so no tree is too deep to show."""
     depth = max(
         (max(len(p["optimized"]["answered_at_depth"]), len(p["uniform"]["answered_at_depth"])) for p in run["plans"]),
         default=0,
     )
-    shown = min(depth, DEPTH_COLUMNS)
     t = Table(title="Where lookups end: share answered at each depth, even split → advised", title_justify="left")
-    t.add_column("c", justify="right")
-    for d in range(1, shown + 1):
-        t.add_column(f"depth {d}", justify="right")
-    if depth > DEPTH_COLUMNS:
-        t.add_column(f"{DEPTH_COLUMNS + 1}+", justify="right")
+    t.add_column("depth", justify="right")
     for p in run["plans"]:
-        o, u = p["optimized"]["answered_at_depth"], p["uniform"]["answered_at_depth"]
+        label = f"{p['page_size']:,} B" if p["page_size"] else f"c = {cap_label(p)}"
+        t.add_column(label + (" B+" if p["page_size"] and p.get("model") == "bplus" else ""), justify="right")
+    rows = [(str(d + 1), d, d + 1) for d in range(min(depth, DEPTH_COLUMNS))]
+    if depth > DEPTH_COLUMNS:
+        rows.append((f"{DEPTH_COLUMNS + 1}+", DEPTH_COLUMNS, depth))
+    for label, lo, hi in rows:
         cells = []
-        for d in range(shown):
-            a = u[d] if d < len(u) else 0.0
-            b = o[d] if d < len(o) else 0.0
-            cells.append(f"{pct(a)}→{pct(b)}")
-        if depth > DEPTH_COLUMNS:
-            cells.append(f"{pct(sum(u[DEPTH_COLUMNS:]))}→{pct(sum(o[DEPTH_COLUMNS:]))}")
-        t.add_row(cap_label(p), *cells)
+        for p in run["plans"]:
+            u, o = p["uniform"]["answered_at_depth"], p["optimized"]["answered_at_depth"]
+            cells.append(f"{pct(sum(u[lo:hi]))}→{pct(sum(o[lo:hi]))}")
+        t.add_row(label, *cells)
     return t
 
 
@@ -190,6 +217,7 @@ def render_run(run: dict) -> Group:
             )
         )
     if run["plans"]:
+        parts += [Panel(summary_text(run), title="The advice in one line per page size", title_align="left")]
         parts += [plans_table(run), size_table(run), depth_table(run)]
         # optional sections: each returns None when the run holds none of its figures
         for section in (
