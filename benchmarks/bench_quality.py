@@ -18,6 +18,7 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from gen import WORKLOADS, popularity  # noqa: E402
 
+from advisor.budget import BudgetSpec  # noqa: E402
 from advisor.histogram import Histogram  # noqa: E402
 from advisor.layout import evaluate  # noqa: E402
 from advisor.optimize import lower_bounds, min_height, solve_exact, uniform_layout  # noqa: E402
@@ -36,7 +37,8 @@ def histogram(kind: str, n: int, lookups: int, seed: int = 1) -> Histogram:
 def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--n", type=int, default=2000)
-    ap.add_argument("--caps", type=int, nargs="*", default=[5, 7, 12, 20])
+    ap.add_argument("--caps", type=int, nargs="*", default=[3, 5, 7, 12, 20])
+    ap.add_argument("--workloads", nargs="*", default=list(WORKLOADS))
     args = ap.parse_args()
     n = args.n
     names = [name for name, _ in near_candidates(Histogram(np.ones(1), np.ones(2)), 1)]
@@ -52,7 +54,8 @@ def main() -> None:
     short = [abbrev.get(nm, nm[:7]) for nm in names]
     print(f"n = {n:,}; figures are expected page reads / exact optimum - 1, in %")
     print("columns: " + "; ".join(f"{s} = {nm}" for s, nm in zip(short, names, strict=False)))
-    print("planner = the planner's pick with the exact DP forbidden; level, runs, entropy = lower bounds")
+    print("planner = the planner's pick with the exact DP forbidden and no budget (--max-pages none);")
+    print("level, runs, entropy = lower bounds")
     head = (
         f"{'workload':<20} {'c':>3} {'h':>2} {'opt':>6} {'exact s':>7} {'even':>6} "
         + " ".join(f"{s:>7}" for s in short)
@@ -60,7 +63,7 @@ def main() -> None:
     )
     print(head)
     print("-" * len(head))
-    for kind in WORKLOADS:
+    for kind in args.workloads:
         for c in args.caps:
             h = histogram(kind, n, 100 * n)
             t0 = time.perf_counter()
@@ -69,7 +72,7 @@ def main() -> None:
             rel = lambda x, opt=opt: 100 * (x / opt - 1)  # noqa: E731
             cells = [rel(evaluate(build(), h).expected_page_reads) for _, build in near_candidates(h, c)]
             t0 = time.perf_counter()
-            plan = plan_capacity(h, c, options=PlanOptions(exact_seconds=0))
+            plan = plan_capacity(h, c, options=PlanOptions(exact_seconds=0, budget=BudgetSpec("none", "none")))
             t_plan = time.perf_counter() - t0
             b = lower_bounds(h, c)
             print(
