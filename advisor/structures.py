@@ -103,6 +103,10 @@ class ClassicTree:
                     f"hot keys lifted within the budget ({h} levels, {tries}c offered)",
                     lambda h=h, tries=tries: within_budget_layout(fit, c, pages, h, tries),
                 )
+            yield (
+                f"evenly strided full pages first, then hot keys, within the budget ({h} levels)",
+                lambda h=h: within_budget_layout(fit, c, pages, h, 2, fill_first=True),
+            )
 
     def bounds(self, hist: Histogram, c: int) -> dict[str, float]:
         return lower_bounds(hist, c)

@@ -66,7 +66,9 @@ def _gap_plan(gaps: list[int], c: int, sub: int, room: int):
     return cuts, moved, room - spare, pages
 
 
-def within_budget_layout(hist: Histogram, c: int, max_pages: int, max_height: int, tries: int = 2) -> Layout:
+def within_budget_layout(
+    hist: Histogram, c: int, max_pages: int, max_height: int, tries: int = 2, fill_first: bool = False
+) -> Layout:
     """A layout of at most ``max_pages`` pages and ``max_height`` levels that lifts hot keys.
 
     Requires ``max_pages >= ceil(n / c)`` and ``max_height >= min_height(n, c)`` (always
@@ -87,7 +89,7 @@ def within_budget_layout(hist: Histogram, c: int, max_pages: int, max_height: in
         if hi - lo <= c:
             b.add(np.arange(lo, hi), parent, slot)
             continue
-        keys, runs = _root_page(score, lo, hi, c, h, budget, tries)
+        keys, runs = _root_page(score, lo, hi, c, h, budget, tries, fill_first)
         page = b.add(np.asarray(keys, dtype=np.int64), parent, slot)
         need = [fewest_pages(z - a, c) for a, z in runs]
         slack = budget - 1 - sum(need)
@@ -204,7 +206,16 @@ def choose(local, order, size, c, sub, budget) -> np.ndarray:
     )
 
 
-def _root_page(score: np.ndarray, lo: int, hi: int, c: int, h: int, budget: int, tries: int):
+def _aligned_fillers(size: int, c: int, sub: int) -> np.ndarray:
+    """Keys offered after the hot ones: evenly strided so that every run between them holds a
+    whole number of pages (stride = m c + 1), the shape a full root over a range of
+    near-uniform weight takes; they cost no page, so they fill root slots the hot keys left."""
+    m = max(1, min(sub // c, (size - c) // ((c + 1) * c)))
+    stride = m * c + 1
+    return np.arange(stride - 1, size, stride, dtype=np.int64)[:c]
+
+
+def _root_page(score: np.ndarray, lo: int, hi: int, c: int, h: int, budget: int, tries: int, fill_first: bool = False):
     """Root keys of range lo..hi-1 (ascending global ranks) and the child runs below them."""
     sub = capacity_of(c, h - 1)
     size = hi - lo
@@ -212,7 +223,13 @@ def _root_page(score: np.ndarray, lo: int, hi: int, c: int, h: int, budget: int,
     local = score[lo:hi]
     top = np.argpartition(-local, k - 1)[:k] if k < size else np.arange(size)
     top = top[np.argsort(-local[top], kind="stable")]
-    chosen = choose(local, top, size, c, min(sub, size + 1), budget)
+    fill = _aligned_fillers(size, c, sub)
+    fill = fill[~np.isin(fill, top)]
+    hot = top[local[top] > 0]
+    offered = np.concatenate([fill, hot] if fill_first else [hot, fill])
+    weights = local.copy()
+    weights[fill] = np.maximum(weights[fill], np.finfo(np.float64).tiny)  # offered even when never looked up
+    chosen = choose(weights, offered, size, c, min(sub, size + 1), budget)
     gaps = np.diff(np.concatenate([[-1], chosen, [size]])) - 1
     gaps, chosen = gaps.tolist(), chosen.tolist()
     plan = _gap_plan(gaps, c, sub, c - len(chosen))
