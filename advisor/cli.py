@@ -127,7 +127,7 @@ def _run(
                 "total_seconds": round(time.perf_counter() - t0, 3),
             }
     if svg or html:
-        run["pictures"] = save_pictures(render_run(run), svg, html)
+        run["pictures"] = save_pictures(run, render_run(run), svg, html)
     if as_json:
         print(json.dumps(run, indent=2, default=str))
     else:

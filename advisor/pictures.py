@@ -5,12 +5,15 @@ from __future__ import annotations
 
 import io
 import re
+from html import escape
 from pathlib import Path
 
 from rich.console import Console
 from rich.terminal_theme import TerminalTheme
 
 from .atomic import atomic_path
+from .charts import all_charts, chart_sheet
+from .report import summary_text
 
 HEADING_PX = 80  # the heading band above the report
 
@@ -82,31 +85,53 @@ header h1 {{ font-size: 22px; font-weight: normal; margin: 0 0 4px; }}
 header p {{ color: #6b675e; margin: 0; font-size: 14px; }}
 main {{ padding: 8px 28px 28px; }}
 pre {{ font-family: "DejaVu Sans Mono", Menlo, Consolas, monospace; font-size: 13px; line-height: 1.3; }}
+h2 {{ font-size: 17px; font-weight: normal; border-bottom: 1px solid #c9c2b2; padding-bottom: 4px; }}
+.summary p {{ max-width: 60em; line-height: 1.45; }}
+.charts svg {{ margin: 8px 16px 8px 0; background: #fffdf8; border: 1px solid #e4ddcc; }}
 </style>
 </head>
 <body>
 <header><h1>advisor: page-layout advice</h1>
 <p>Advice only: test any layout on a copy of your data before production use.</p></header>
-<main><pre><code>{code}</code></pre></main>
+<main>
+<section class="summary"><h2>The advice</h2>%SUMMARY%</section>
+<section class="charts">%CHARTS%</section>
+<h2>The full report</h2>
+<pre><code>{code}</code></pre></main>
 </body>
 </html>
 """
 
 
-def save_pictures(renderable, svg: Path | None, html: Path | None, width: int = 110) -> list[str]:
-    """Render ``renderable`` once and save it as SVG and/or HTML (atomically); returns the paths."""
-    console = Console(record=True, width=width, file=io.StringIO(), force_terminal=True, color_system="truecolor")
-    console.print(renderable)
+def save_pictures(run: dict, renderable, svg: Path | None, html: Path | None, width: int = 110) -> list[str]:
+    """Save the run's charts as one SVG sheet and/or a self-contained HTML page (the advice in
+    sentences, the charts inline, then the whole report), atomically; returns the paths."""
     written = []
     if svg is not None:
-        text = console.export_svg(theme=PAPER, clear=False, code_format=SVG_PAGE, unique_id="advisor-report")
-        text = _taller(text, HEADING_PX)
-        _write(svg, text)
+        _write(svg, chart_sheet(run))
         written.append(str(svg))
     if html is not None:
-        _write(html, console.export_html(theme=PAPER, clear=False, code_format=HTML_PAGE, inline_styles=False))
+        console = Console(record=True, width=width, file=io.StringIO(), force_terminal=True, color_system="truecolor")
+        console.print(renderable)
+        summary = "".join(f"<p>{escape(line)}</p>" for line in summary_text(run).plain.splitlines())
+        charts = "\n".join(all_charts(run))
+        page = HTML_PAGE.replace("%SUMMARY%", _braces(summary)).replace("%CHARTS%", _braces(charts))
+        _write(html, console.export_html(theme=PAPER, clear=False, code_format=page, inline_styles=False))
         written.append(str(html))
     return written
+
+
+def terminal_sheet(renderable, width: int = 110) -> str:
+    """The rendered report itself as an SVG page of this project's design (no window chrome)."""
+    console = Console(record=True, width=width, file=io.StringIO(), force_terminal=True, color_system="truecolor")
+    console.print(renderable)
+    text = console.export_svg(theme=PAPER, clear=False, code_format=SVG_PAGE, unique_id="advisor-report")
+    return _taller(text, HEADING_PX)
+
+
+def _braces(text: str) -> str:
+    """Text placed inside a str.format template."""
+    return text.replace("{", "{{").replace("}", "}}")
 
 
 def _taller(svg: str, extra: int) -> str:
