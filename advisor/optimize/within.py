@@ -241,14 +241,16 @@ def _root_page(score: np.ndarray, lo: int, hi: int, c: int, h: int, budget: int,
     edges = [-1] + chosen + [size]
     for t in range(len(gaps)):
         a, g, r = edges[t] + 1, gaps[t], moved[t]  # gap t is keys a..a+g-1
-        # keys moved up come from the end of the run with more lookup weight (either end lies
-        # next to a root key or the range's edge, so no new child run appears)
-        left_end = lc[a + r] - lc[a] >= lc[a + g] - lc[a + g - r] if r else True
-        up = list(range(a, a + r)) if left_end else list(range(a + g - r, a + g))
-        first = a + r if left_end else a
-        keys += up if left_end else []
-        keys += _cut_positions(lc, first, g - r, cuts[t], c, sub)
-        keys += [] if left_end else up
+        if r or cuts[t]:
+            # keys moved up come from the end of the run with more lookup weight (either end lies
+            # next to a root key or the range's edge, so no new child run appears)
+            left_end = lc[a + r] - lc[a] >= lc[a + g] - lc[a + g - r] if r else True
+            up = list(range(a, a + r)) if left_end else list(range(a + g - r, a + g))
+            first = a + r if left_end else a
+            keys += up if left_end else []
+            if cuts[t]:
+                keys += _cut_positions(lc, first, g - r, cuts[t], c, sub)
+            keys += [] if left_end else up
         if t < len(chosen):
             keys.append(chosen[t])
     keys = [lo + x for x in keys]
