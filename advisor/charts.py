@@ -16,13 +16,13 @@ def _label(p: dict) -> str:
     return size + (" B+" if p.get("model") == "bplus" else "")
 
 
-def _axes(title: str, x_label: str, y_label: str, x_max: float, y_max: float) -> list[str]:
+def _axes(title: str, x_label: str, y_label: str, x_max: float, y_max: float, x_ticks=None) -> list[str]:
     out = [
         f'<text x="{PAD}" y="20" font-size="14" fill="{INK}">{escape(title)}</text>',
         f'<line x1="{PAD}" y1="{H - PAD}" x2="{W - 16}" y2="{H - PAD}" stroke="{RULE}"/>',
         f'<line x1="{PAD}" y1="{H - PAD}" x2="{PAD}" y2="32" stroke="{RULE}"/>',
         f'<text x="{W - 16}" y="{H - 14}" font-size="11" text-anchor="end" fill="{MUTED}">{escape(x_label)}</text>',
-        f'<text x="8" y="44" font-size="11" fill="{MUTED}">{escape(y_label)}</text>',
+        f'<text x="{PAD + 6}" y="40" font-size="11" fill="{MUTED}">{escape(y_label)}</text>',
     ]
     for i in range(5):
         v = y_max * i / 4
@@ -30,11 +30,11 @@ def _axes(title: str, x_label: str, y_label: str, x_max: float, y_max: float) ->
         out.append(
             f'<text x="{PAD - 6}" y="{y + 4:.1f}" font-size="10" text-anchor="end" fill="{MUTED}">{v:.2f}</text>'
         )
-    for i in range(5):
-        v = x_max * i / 4
+    ticks = x_ticks if x_ticks is not None else [(x_max * i / 4, f"{x_max * i / 4:,.0f}") for i in range(5)]
+    for v, text in ticks:
         x = _x(v, x_max)
         out.append(
-            f'<text x="{x:.1f}" y="{H - PAD + 14}" font-size="10" text-anchor="middle" fill="{MUTED}">{v:,.0f}</text>'
+            f'<text x="{x:.1f}" y="{H - PAD + 14}" font-size="10" text-anchor="middle" fill="{MUTED}">{escape(text)}</text>'
         )
     return out
 
@@ -79,7 +79,8 @@ def depth_chart(plan: dict) -> str:
     """Share of lookups answered at each depth, even split and advised side by side."""
     u, o = plan["uniform"]["answered_at_depth"], plan["optimized"]["answered_at_depth"]
     depth = max(len(u), len(o), 1)
-    parts = _axes(f"Where lookups end ({_label(plan)})", "depth", "share", depth + 0.5, 1.0)
+    ticks = [(d + 0.75, str(d + 1)) for d in range(depth)]
+    parts = _axes(f"Where lookups end ({_label(plan)})", "depth", "share", depth + 0.5, 1.0, ticks)
     width = (W - PAD - 24) / (depth + 0.5) / 3
     for d in range(depth):
         for k, (vals, colour) in enumerate(((u, EVEN), (o, ADVISED))):
