@@ -49,6 +49,8 @@ class PageSettings:
 def capacities(settings: PageSettings, measured_key_bytes: float) -> list[tuple[int, Geometry | None]]:
     """(c, geometry) for every requested size; defaults to the common page sizes."""
     out: list[tuple[int, Geometry | None]] = []
+    if not 0 < settings.fill_factor <= 1:
+        raise SettingInvalid(f"fill factor must be in (0, 1], got {settings.fill_factor:g}")
     for c in settings.keys_per_page:
         if c < 1:
             raise SettingInvalid(f"keys per page must be at least 1, got {c}")
@@ -149,6 +151,7 @@ def plan_one(wl: Workload, req: Request) -> Plan:
         fanout=req.fanout or 0,
         exact_seconds=req.exact_seconds,
         budget=req.budget,
+        even_fill=s.fill_factor if s.model == "btree" else 1.0,
     )
     return plan_capacity(wl.hist, c, g, options)
 
@@ -225,6 +228,7 @@ def _analyse_structure(wl: Workload, req: Request, reads: LogReads, on_plan) -> 
         fanout=req.fanout or 0,
         exact_seconds=req.exact_seconds,
         budget=req.budget,
+        even_fill=s.fill_factor if s.model == "btree" else 1.0,
     )
     plans = advise(wl.hist, unique, options, on_plan)
     pools = [pool_figures(p.uniform, p.recommended, wl.hist, reads.replay, req.pool_pages) for p in plans]

@@ -184,10 +184,6 @@ def recommend_cmd(
             (holdout != 0.2 and not order_column, "--holdout has no effect without --order-column"),
             (replay_limit != 20_000_000 and not order_column, "--replay-limit has no effect without --order-column"),
             (
-                fill_factor != 1.0 and model == "btree",
-                "--fill-factor applies to B+-tree leaves; the btree plan ignores it",
-            ),
-            (
                 fanout is not None and not keys_per_page,
                 "--fanout is set by the page size; it applies with --keys-per-page",
             ),

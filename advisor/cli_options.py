@@ -86,7 +86,13 @@ FanoutOpt = Annotated[
     ),
 ]
 FillOpt = Annotated[
-    float, option("--fill-factor", "bplus: share of each leaf page filled (0..1].", GEO, metavar="SHARE")
+    float,
+    option(
+        "--fill-factor",
+        "Share of each page a bulk loader fills (0..1]: btree: the even split's pages (the baseline; the advice may fill pages); bplus: leaf pages.",
+        GEO,
+        metavar="SHARE",
+    ),
 ]
 TruncateOpt = Annotated[
     bool,

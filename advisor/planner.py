@@ -97,6 +97,7 @@ class PlanOptions:
     # 10-50x above the measured time: n = 1,000 took 0.2 s), and the most one subtree may take:
     within_subtree_ops: float = 5e8
     quick: bool = False  # a frontier point: large tables skip the slow unconstrained builders
+    even_fill: float = 1.0  # classic B-tree: share of each even-split page a bulk loader fills
 
 
 def plan_capacity(
@@ -156,7 +157,7 @@ def plan_capacity(
 
 def _structure(opts: PlanOptions, geometry: Geometry | None) -> ClassicTree | BPlusTree:
     if opts.model != "bplus":
-        return ClassicTree()
+        return ClassicTree(opts.even_fill)
     F = geometry.fanout if geometry else opts.fanout
     if F < 2:
         raise SettingInvalid("a B+-tree plan needs a fanout of at least 2 (give --fanout with --keys-per-page)")

@@ -56,13 +56,16 @@ Builder = tuple[str, Callable[[], Layout]]
 
 @dataclass(frozen=True)
 class ClassicTree:
-    """Classic B-tree: every page holds keys and their records, c + 1 child slots."""
+    """Classic B-tree: every page holds keys and their records, c + 1 child slots. ``even_fill``:
+    the share of each page a bulk loader fills in the even split (the baseline); the advice may
+    fill pages completely."""
 
+    even_fill: float = 1.0
     name = "btree"
     fanout = 0
 
     def even_split(self, n: int, c: int) -> Layout:
-        return uniform_layout(n, c)
+        return uniform_layout(n, max(1, int(c * self.even_fill + 1e-9)))
 
     def least(self, n: int, c: int, even: Layout) -> tuple[int, int, str]:
         """(fewest pages, fewest levels, note for an impossible page budget): N keys need
@@ -186,4 +189,4 @@ class BPlusTree:
 
 def structure_for(model: str, fanout: int = 0) -> ClassicTree | BPlusTree:
     """The structure a model name asks for ("btree" or "bplus" with its fanout)."""
-    return BPlusTree(fanout) if model == "bplus" else ClassicTree()
+    return BPlusTree(fanout) if model == "bplus" else ClassicTree()  # (fill: see planner._structure)

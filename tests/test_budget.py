@@ -57,6 +57,7 @@ def test_default_run_never_exceeds_the_even_split(seed, n, c, skew, model, exact
     assert plan.lower_bound <= plan.recommended_cost.expected_page_reads + 1e-9
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("pages, height", [("1.25x", "even"), ("even", "even+1"), ("2x", "none"), ("none", "even")])
 @pytest.mark.parametrize("model", ["btree", "bplus"])
 def test_other_budgets_hold(pages, height, model):
@@ -175,3 +176,17 @@ def test_cli_impossible_or_bad_budget_is_one_line_exit_5(db, args, words):
     assert len(err.splitlines()) == 1 and "Traceback" not in err
     for w in words:
         assert w in err
+
+
+def test_fill_factor_sets_the_classic_baseline_and_its_budget():
+    """A bulk loader's fill factor (common practice: leaves well short of full) makes the even
+    split larger; the default budget is that baseline's size, which the advice may fill."""
+    rng = np.random.default_rng(8)
+    hist = _hist(rng, 5_000, 1.0)
+    full = plan_capacity(hist, 50, options=PlanOptions(exact_seconds=0))
+    part = plan_capacity(hist, 50, options=PlanOptions(exact_seconds=0, even_fill=0.8))
+    assert part.uniform.pages > full.uniform.pages and part.uniform.page_sizes().max() <= 40
+    check_layout(part.recommended, part.budget)
+    assert part.budget.max_pages == part.uniform.pages
+    assert part.recommended.page_sizes().max() <= 50  # the advice may fill its pages
+    assert part.recommended_cost.expected_page_reads <= full.recommended_cost.expected_page_reads + 1e-12

@@ -128,6 +128,7 @@ def test_every_command_has_help():
         assert opt in res.stdout
 
 
+@pytest.mark.slow
 def test_demo_runs_small(tmp_path):
     res = runner.invoke(app, ["demo", "--dir", str(tmp_path), "--keys", "3000", "--lookups", "20000", "--json"])
     assert res.exit_code == 0, res.stderr
