@@ -258,7 +258,7 @@ def _analyse_structure(wl: Workload, req: Request, reads: LogReads, on_plan) -> 
             "rows": holdout_rows(train, test, unique, alphas, options),
         }
     profile = req.storage or PROFILES["nvme"]
-    choice = page_size_table(plans, wl.hist, profile, req.pool_bytes or default_pool_bytes(plans))
+    choice = page_size_table(plans, wl.hist, profile, _table_pool_bytes(req, plans))
     if choice["rows"]:
         run["page_size_choice"] = choice
     return Analysis(plans, run)
@@ -276,6 +276,17 @@ def pool_equivalent(p: Plan, hist: Histogram, pool_bytes: int, pool_pages: list[
         "pool_equivalent_pages": int(max(0, need - pool)),
         "pool_equivalent_bytes": int(max(0, need - pool) * size) if size else None,
     }
+
+
+def _table_pool_bytes(req: Request, plans: list[Plan]) -> int:
+    """The pool the page-size choice is judged with: --pool-bytes; else the first --pool-pages
+    count of the largest planned page size; else the default (1% of the index, one page at least)."""
+    if req.pool_bytes:
+        return req.pool_bytes
+    sizes = [p.page_size for p in plans if p.page_size]
+    if req.pool_pages and sizes:
+        return req.pool_pages[0] * max(sizes)
+    return default_pool_bytes(plans)
 
 
 def _inputs(wl: Workload, reads: LogReads) -> dict:

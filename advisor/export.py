@@ -86,6 +86,8 @@ def write_layout(wl: Workload, layout: Layout, path: str | os.PathLike, replace:
     check_target(path, replace)
     fmt = export_format(path)
     select = _stage(wl, layout)
+    if fmt == "csv":  # CSV has no list type: the keys column holds a JSON array (documented)
+        select = f"SELECT * REPLACE (to_json(keys)::VARCHAR AS keys) FROM ({select})"
     try:
         with atomic_path(path) as tmp:
             if fmt == "duckdb":
@@ -120,7 +122,7 @@ def read_layout(wl: Workload, path: str | os.PathLike, capacity: int, fanout: in
         leafcol = "is_leaf::BOOLEAN AS is_leaf, " if fanout else ""
         rel = (
             f"(SELECT page_id::BIGINT AS page_id, parent_page_id::BIGINT AS parent_page_id, "
-            f"child_position::BIGINT AS child_position, {leafcol}keys::{ktype}[] AS keys "
+            f"child_position::BIGINT AS child_position, {leafcol}keys::JSON::{ktype}[] AS keys "
             f"FROM read_csv({sql_string(str(path))}, all_varchar=true))"
         )
     elif fmt == "json":
