@@ -86,7 +86,9 @@ class Plan:
 class PlanOptions:
     exact_seconds: float = EXACT_SECONDS  # estimated run time the exact DP may take
     exact_max_bytes: float = EXACT_MAX_BYTES
-    polish_ops: float = 3e8  # exact DP work spent re-solving small subtrees of a near plan
+    polish_ops: float = 2e9  # exact DP work spent re-solving subtrees of a near plan (estimate; runs
+    # well below it: n = 5,000, c = 3 took 1.4 s), and the most one subtree may take:
+    polish_subtree_ops: float = 1e9
     recut_ops: float = 3e9  # exact DP work spent re-cutting windows of page keys (classic B-tree)
     smoothing: float = 0.0  # plan on hist.smoothed(smoothing); costs are always on the raw histogram
     model: str = "btree"  # or "bplus" (keys only in leaves, variable depth)
@@ -218,7 +220,7 @@ def _unlimited(shape, fit: Histogram, c: int, uni: Layout, opts: PlanOptions, st
             step,
             "exact re-solve of small subtrees",
             " + exact small subtrees",
-            lambda cand: polish(cand, fit, opts.polish_ops / POLISH_TOP),
+            lambda cand: polish(cand, fit, opts.polish_ops / POLISH_TOP, opts.polish_subtree_ops),
         )
     if opts.recut_ops > 0 and best[2] is not uni:
         step("exact re-cuts of page keys")
