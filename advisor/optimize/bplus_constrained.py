@@ -21,7 +21,7 @@ import numpy as np
 from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
 from .bplus import bplus_chain, bplus_height, bplus_weights
-from .constrained import BISECTION_STEPS, ConstrainedResult
+from .constrained import BISECTION_STEPS, ConstrainedResult, price_bisection
 
 
 def bplus_constrained_work(n: int, F: int, height: int) -> float:
@@ -119,42 +119,9 @@ def solve_bplus_within(
     if max_height < bplus_height(n, L, F):
         raise ValueError("height below the minimum: the caller checks this")
     w = bplus_weights(hist)
-    scale = total if total > 0 else 1.0
-    runs = 0
 
-    def solve(lam: float):
-        nonlocal runs
-        runs += 1
+    def levels(lam: float) -> tuple[Layout, float]:
         lv = _Levels(w, L, F, max_height, lam)
-        layout = lv.rebuild(max_height)
-        obj = lv.value(max_height)
-        return layout, obj, obj - lam * layout.pages
+        return lv.rebuild(max_height), lv.value(max_height)
 
-    layout, obj, cost = solve(0.0)
-    if max_pages is None or layout.pages <= max_pages:
-        return ConstrainedResult(layout, cost / scale, cost / scale, True, runs)
-    dual, best_layout, best_cost = obj, None, np.inf
-    lo_lam, hi_lam = 0.0, scale * (max_height + 1) / max(1, n)
-    while True:
-        layout, obj, cost = solve(hi_lam)
-        dual = max(dual, obj - hi_lam * max_pages)
-        if layout.pages <= max_pages:
-            best_layout, best_cost = layout, cost
-            break
-        lo_lam, hi_lam = hi_lam, hi_lam * 4
-        if hi_lam > scale * (max_height + 1) * 4**3:
-            raise AssertionError("no tree within the page budget")
-    for _ in range(steps):
-        mid = 0.5 * (lo_lam + hi_lam)
-        layout, obj, cost = solve(mid)
-        dual = max(dual, obj - mid * max_pages)
-        if layout.pages <= max_pages:
-            hi_lam = mid
-            if cost < best_cost:
-                best_layout, best_cost = layout, cost
-        else:
-            lo_lam = mid
-        if best_cost <= dual * (1 + 1e-12):
-            break
-    reads = best_cost / scale
-    return ConstrainedResult(best_layout, reads, min(dual / scale, reads), best_cost <= dual * (1 + 1e-9) + 1e-12, runs)
+    return price_bisection(levels, max_pages, max_height, n, total, steps)

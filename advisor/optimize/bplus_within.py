@@ -30,6 +30,7 @@ import numpy as np
 from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
 from .bplus import bplus_weights, hot_leaf_starts, leaf_count
+from .within import share_spare
 
 HOT_RUNS_MAX = 512  # most hot runs given leaves of their own (a vectorised pass each)
 
@@ -75,28 +76,11 @@ def bplus_within_layout(
         page = b.add(starts[[lo for lo, _ in pieces[1:]]], parent, slot, leaf=False)
         need = [fewest_internal(hi - lo, F) for lo, hi in pieces]
         slack = budget - 1 - sum(need)
-        share = _share(slack, [float(item_cum[hi] - item_cum[lo]) for lo, hi in pieces], need)
+        # a piece needing no internal page (one leaf) cannot use spare pages
+        share = share_spare(slack, [float(item_cum[hi] - item_cum[lo]) for lo, hi in pieces], need, least_useful=1)
         for t, (lo, hi) in enumerate(pieces):
             todo.append((lo, hi, h - 1, need[t] + share[t], page, t))
     return b.build()
-
-
-def _share(slack: int, weights: list[float], need: list[int]) -> list[int]:
-    out = [0] * len(weights)
-    total = sum(w for w, k in zip(weights, need, strict=True) if k > 0)
-    if slack <= 0 or total <= 0:
-        return out
-    for t, (w, k) in enumerate(zip(weights, need, strict=True)):
-        if k > 0:
-            out[t] = int(slack * w / total)
-    left = slack - sum(out)
-    for t in sorted(range(len(weights)), key=lambda t: -weights[t]):
-        if left <= 0:
-            break
-        if need[t] > 0:
-            out[t] += 1
-            left -= 1
-    return out
 
 
 def _plan(runs: list[int], F: int, sub: int, slots: int):

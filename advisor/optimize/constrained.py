@@ -32,7 +32,7 @@ import numpy as np
 
 from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
-from .exact import ROW_BLOCK, exact_work, forest_chain, length_limits, row_min_of_sums
+from .exact import ROW_BLOCK, ForestTables, exact_work, forest_chain, forest_roots, length_limits, row_min_of_sums
 from .topdown import build_top_down
 from .uniform import min_height
 
@@ -127,30 +127,10 @@ class _Levels:
         def roots(i: int, j: int, h: int) -> tuple[np.ndarray, int]:
             start, end = self.levels[h - 2]
             out: list[int] = []
-            self._forest_roots(start, end, i, j, c, out)
+            forest_roots(ForestTables(self.split, start, end), i, j, c, out)
             return np.asarray(out) - 1, h - 1
 
         return build_top_down(n, c, roots, height)
-
-    def _forest_roots(self, start: dict, end: dict, i: int, j: int, s: int, out: list) -> None:
-        stack = [(i, j, s, False, 0)]
-        n = self.n
-        while stack:
-            i, j, s, emit, r = stack.pop()
-            if emit:
-                out.append(r)
-                continue
-            if s == 0:
-                continue
-            a, b = self.split[s]
-            L = j - i
-            lo, hi = a, L - 1 - b
-            left = start[a][i, lo : hi + 1]
-            right = end[b][j, n - L + 1 + lo : n - L + 2 + hi]
-            r = i + lo + int(np.argmin(left + right)) + 1
-            stack.append((r, j, b, False, 0))
-            stack.append((0, 0, 0, True, r))
-            stack.append((i, r - 1, a, False, 0))
 
 
 def _one_page(n: int, c: int) -> Layout:
@@ -173,15 +153,26 @@ def solve_within(
     height = max_height
     if height < min_height(n, c):
         raise ValueError("height below the minimum: the caller checks this")
+
+    def levels(lam: float) -> tuple[Layout, float]:
+        lv = _Levels(hist.p, hist.q, c, height, lam)
+        return lv.rebuild(height), lv.value(height)
+
+    return price_bisection(levels, max_pages, height, n, total, steps)
+
+
+def price_bisection(
+    levels, max_pages: int | None, height: int, n: int, total: float, steps: int = BISECTION_STEPS
+) -> ConstrainedResult:
+    """The cheapest price-optimal tree within ``max_pages``, and the dual bound, for any family:
+    ``levels(lam)`` returns the lam-optimal tree and its value (cost + lam x pages)."""
     scale = total if total > 0 else 1.0
     runs = 0
 
     def solve(lam: float) -> tuple[Layout, float, float]:
         nonlocal runs
         runs += 1
-        levels = _Levels(hist.p, hist.q, c, height, lam)
-        layout = levels.rebuild(height)
-        obj = levels.value(height)
+        layout, obj = levels(lam)
         return layout, obj, obj - lam * layout.pages  # layout, cost + lam pages, cost
 
     layout, obj, cost = solve(0.0)

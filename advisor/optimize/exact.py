@@ -244,16 +244,14 @@ def solve_exact(hist: Histogram, c: int, integer: bool | None = None, root_keys:
 
 
 @dataclass
-class _ForestTables:
+class ForestTables:
     split: dict
     start: dict  # s -> array [i, L] = G(i, i + L, s), for s used as a left part (and 0 = C)
     end: dict  # s -> array [j, n - L] = G(j - L, j, s), for s used as a right part (and 0 = C);
     # columns run by n - L so that the right parts of one row minimisation are a forward slice
 
 
-def _forest_tables(
-    p: np.ndarray, q: np.ndarray, c: int, integer: bool = False, top: int | None = None
-) -> _ForestTables:
+def _forest_tables(p: np.ndarray, q: np.ndarray, c: int, integer: bool = False, top: int | None = None) -> ForestTables:
     n = p.size
     dtype, inf = table_type(integer)
     top = c if top is None else top
@@ -291,10 +289,10 @@ def _forest_tables(
         C = w if L <= c else w + start[c][:m, L]
         start[0][:m, L] = C
         end[0][L:, n - L] = C
-    return _ForestTables(split, start, end)
+    return ForestTables(split, start, end)
 
 
-def _forest_roots(t: _ForestTables, i: int, j: int, s: int, out: list) -> None:
+def forest_roots(t: ForestTables, i: int, j: int, s: int, out: list) -> None:
     """Append the 1-based root keys of an optimal s-key forest on (i, j], left to right."""
     stack = [(i, j, s, False, 0)]
     while stack:
@@ -317,10 +315,10 @@ def _forest_roots(t: _ForestTables, i: int, j: int, s: int, out: list) -> None:
         stack.append((i, r - 1, a, False, 0))
 
 
-def _forest_rebuild(t: _ForestTables, n: int, c: int, top: int) -> Layout:
+def _forest_rebuild(t: ForestTables, n: int, c: int, top: int) -> Layout:
     def roots(i: int, j: int, size: int) -> tuple[np.ndarray, int]:
         out: list[int] = []
-        _forest_roots(t, i, j, size, out)
+        forest_roots(t, i, j, size, out)
         return np.asarray(out) - 1, c
 
     return build_top_down(n, c, roots, top)

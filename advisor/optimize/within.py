@@ -93,7 +93,7 @@ def within_budget_layout(
         page = b.add(np.asarray(keys, dtype=np.int64), parent, slot)
         need = [fewest_pages(z - a, c) for a, z in runs]
         slack = budget - 1 - sum(need)
-        share = _share(slack, [float(cum[z] - cum[a]) for a, z in runs], need)
+        share = share_spare(slack, [float(cum[z] - cum[a]) for a, z in runs], need)
         edges = [lo - 1] + keys + [hi]
         for t in range(len(keys) + 1):
             a, z = edges[t] + 1, edges[t + 1]
@@ -102,20 +102,22 @@ def within_budget_layout(
     return b.build()
 
 
-def _share(slack: int, weights: list[float], need: list[int]) -> list[int]:
-    """Spare pages for each child run, in proportion to its lookup weight (whole pages)."""
+def share_spare(slack: int, weights: list[float], need: list[int], least_useful: int = 2) -> list[int]:
+    """Spare pages for each child run, in proportion to its lookup weight (whole pages); runs
+    needing fewer than ``least_useful`` pages get none (they cannot use more)."""
     out = [0] * len(weights)
-    total = sum(w for w, k in zip(weights, need, strict=True) if k > 1)
+    usable = [k >= least_useful for k in need]
+    total = sum(w for w, ok in zip(weights, usable, strict=True) if ok)
     if slack <= 0 or total <= 0:
         return out
-    for t, (w, k) in enumerate(zip(weights, need, strict=True)):
-        if k > 1:  # a run of one page cannot use more
+    for t, (w, ok) in enumerate(zip(weights, usable, strict=True)):
+        if ok:
             out[t] = int(slack * w / total)
     left = slack - sum(out)
     for t in sorted(range(len(weights)), key=lambda t: -weights[t]):
         if left <= 0:
             break
-        if need[t] > 1:
+        if usable[t]:
             out[t] += 1
             left -= 1
     return out
