@@ -11,6 +11,7 @@ import numpy as np
 from .balanced import balanced_bplus_layout, balanced_miss_bound
 from .budget import BudgetSpec
 from .bufferpool import Replay, pinned_misses, pool_figures, pool_to_match
+from .current_index import current_figures
 from .errors import SettingInvalid
 from .frontier import frontier
 from .geometry import (
@@ -24,11 +25,12 @@ from .geometry import (
 from .histogram import Histogram
 from .holdout import holdout_rows
 from .layout import evaluate
-from .logreads import load_replay, load_scans, load_split, truncated_separator_bytes
+from .logreads import load_replay, load_scans, load_split, ranked_keys, truncated_separator_bytes
 from .pagesize import PROFILES, StorageProfile, best_choice, default_pool_bytes, page_size_table
 from .planner import Plan, PlanOptions, plan_capacity
 from .scans import scan_figures
 from .serialize import cost_dict, run_dict
+from .structures import BPlusTree, ClassicTree, structure_for, structure_names
 from .workload import Workload
 
 
@@ -42,15 +44,20 @@ class PageSettings:
     record_pointer: int = DEFAULT_RECORD_POINTER
     child_pointer: int = DEFAULT_CHILD_POINTER
     key_bytes: float | None = None  # None: from the key column's type / measured width
-    model: str = "btree"  # or "bplus": then c is the leaf capacity L
-    fill_factor: float = 1.0
+    model: str = "btree"  # or "bplus": then c is the leaf capacity L; or "both"
+    fill_factor: float = 1.0  # the even split's leaves (a bulk loader's fill factor)
+    internal_fill: float | None = None  # the even split's internal pages (default: fill_factor)
+
+    @property
+    def structure(self) -> ClassicTree | BPlusTree:
+        """The one structure these settings name (a request for both is split before this)."""
+        return structure_for(self.model, 0, self.fill_factor, self.internal_fill)
 
 
 def capacities(settings: PageSettings, measured_key_bytes: float) -> list[tuple[int, Geometry | None]]:
     """(c, geometry) for every requested size; defaults to the common page sizes."""
     out: list[tuple[int, Geometry | None]] = []
-    if not 0 < settings.fill_factor <= 1:
-        raise SettingInvalid(f"fill factor must be in (0, 1], got {settings.fill_factor:g}")
+    shape = settings.structure
     for c in settings.keys_per_page:
         if c < 1:
             raise SettingInvalid(f"keys per page must be at least 1, got {c}")
@@ -61,16 +68,24 @@ def capacities(settings: PageSettings, measured_key_bytes: float) -> list[tuple[
         if size < 1:
             raise SettingInvalid(f"page size must be positive, got {size}")
         g = geometry_for(
-            size,
-            kb,
-            settings.page_header,
-            settings.record_pointer,
-            settings.child_pointer,
-            settings.model,
-            settings.fill_factor,
+            size, kb, settings.page_header, settings.record_pointer, settings.child_pointer, settings.fill_factor
         )
-        out.append((g.leaf_capacity if settings.model == "bplus" else g.capacity, g))
+        out.append((shape.capacity(g), g))
     return out
+
+
+def plan_options(req: Request) -> PlanOptions:
+    """The planner's options for the request's one structure."""
+    s = req.settings
+    return PlanOptions(
+        smoothing=req.smoothing,
+        model=s.structure.name,
+        fanout=req.fanout or 0,
+        exact_seconds=req.exact_seconds,
+        budget=req.budget,
+        leaf_fill=s.fill_factor,
+        internal_fill=s.internal_fill,
+    )
 
 
 def advise(
@@ -106,8 +121,8 @@ def export_paths(path: str | Path, plans: list[Plan], only: int | None = None) -
     out = []
     for p in plans:
         label = f"{p.page_size}B" if p.page_size else f"c{p.keys_per_page}"
-        if mixed and p.model == "bplus":
-            label += "-bplus"
+        if mixed:
+            label += p.structure.export_suffix
         out.append((p, path.with_name(f"{path.stem}-{label}{path.suffix}")))
     if len({target for _, target in out}) != len(out):
         raise SettingInvalid("two plans would export to the same file; pick one with --export-for")
@@ -132,12 +147,13 @@ class Request:
     exact_seconds: float = 5.0  # run the exact DP when its estimated time is within this
     budget: BudgetSpec = field(default_factory=BudgetSpec)  # page and height limits per plan
     frontier: bool = True  # also plan at 1.1x .. 2x and no page limit (the reads-space frontier)
+    current: str | None = None  # sqlite:PATH:INDEX: the user's existing index, costed beside the plans
 
 
 def plan_one(wl: Workload, req: Request) -> Plan:
     """The plan of the one page size (or keys per page) the request names: what a build writes."""
     s = req.settings
-    if s.model not in ("btree", "bplus"):
+    if len(structure_names(s.model)) != 1:
         raise SettingInvalid("a build writes one structure: --model btree or bplus")
     targets = capacities(s, wl.key_bytes)
     if len(targets) != 1:
@@ -145,15 +161,7 @@ def plan_one(wl: Workload, req: Request) -> Plan:
     if req.truncate_separators:
         raise SettingInvalid("--truncate-separators sizes pages for shortened separators; a build stores full keys")
     c, g = targets[0]
-    options = PlanOptions(
-        smoothing=req.smoothing,
-        model=s.model,
-        fanout=req.fanout or 0,
-        exact_seconds=req.exact_seconds,
-        budget=req.budget,
-        even_fill=s.fill_factor if s.model == "btree" else 1.0,
-    )
-    return plan_capacity(wl.hist, c, g, options)
+    return plan_capacity(wl.hist, c, g, plan_options(req))
 
 
 @dataclass
@@ -170,6 +178,7 @@ class LogReads:
     replay: Replay | None = None
     scans: tuple | None = None  # (first ranks, last ranks, weights, point-lookup histogram)
     split: tuple[Histogram, Histogram] | None = None
+    current: dict | None = None  # the user's existing index (--current), costed on the histogram
 
 
 def read_log_extras(wl: Workload, req: Request) -> LogReads:
@@ -178,29 +187,32 @@ def read_log_extras(wl: Workload, req: Request) -> LogReads:
     replay = load_replay(wl, req.order_column, req.replay_limit) if req.order_column else None
     scans = load_scans(wl, req.scan_to) if req.scan_to else None
     split = load_split(wl, req.order_column, req.holdout) if req.order_column and req.holdout > 0 else None
-    return LogReads(replay, scans, split)
+    current = current_figures(req.current, wl.hist, ranked_keys(wl)) if req.current else None
+    return LogReads(replay, scans, split, current)
 
 
 def analyse(wl: Workload, req: Request, on_plan: Callable[[int, str], None] | None = None) -> Analysis:
     """Plan every capacity and add the buffer-pool, balanced, scan, held-out and page-size figures.
 
-    ``settings.model == "both"`` plans the classic B-tree and the B+-tree side by side: one list
+    A model of "both" plans the classic B-tree and the B+-tree side by side: one list
     of plans (each says its model), so a scan-heavy or cache-bound workload shows which suits it.
     Everything is read from DuckDB first (:func:`read_log_extras`), then planned on arrays.
     """
-    if req.truncate_separators and req.settings.model == "btree":
+    models = structure_names(req.settings.model)
+    if req.truncate_separators and "bplus" not in models:
         raise SettingInvalid("--truncate-separators applies to --model bplus")
     reads = read_log_extras(wl, req)
-    models = ["btree", "bplus"] if req.settings.model == "both" else [req.settings.model]
     parts: list[Analysis] = []
     pool_bytes = req.pool_bytes
     for model in models:
         one = replace(req, settings=replace(req.settings, model=model), pool_bytes=pool_bytes)
-        if model == "btree":
-            one = replace(one, truncate_separators=False)
+        one = replace(one, truncate_separators=req.truncate_separators and one.settings.structure.has_balanced_shape)
         parts.append(_analyse_structure(wl, one, reads, on_plan))
         pool_bytes = pool_bytes or default_pool_bytes(parts[0].plans)  # one pool in bytes for both structures
-    return parts[0] if len(parts) == 1 else _side_by_side(parts)
+    result = parts[0] if len(parts) == 1 else _side_by_side(parts)
+    if reads.current is not None:
+        result.run["current"] = reads.current
+    return result
 
 
 def _side_by_side(parts: list[Analysis]) -> Analysis:
@@ -222,14 +234,7 @@ def _analyse_structure(wl: Workload, req: Request, reads: LogReads, on_plan) -> 
     if req.truncate_separators:
         targets = [(c, replace(g, separator_bytes=truncated_separator_bytes(wl, c)) if g else g) for c, g in targets]
     unique = list({(c, g.page_size if g else None): (c, g) for c, g in targets}.values())
-    options = PlanOptions(
-        smoothing=req.smoothing,
-        model=s.model,
-        fanout=req.fanout or 0,
-        exact_seconds=req.exact_seconds,
-        budget=req.budget,
-        even_fill=s.fill_factor if s.model == "btree" else 1.0,
-    )
+    options = plan_options(req)
     plans = advise(wl.hist, unique, options, on_plan)
     pools = [pool_figures(p.uniform, p.recommended, wl.hist, reads.replay, req.pool_pages) for p in plans]
     run = run_dict(wl.hist, plans, _inputs(wl, reads), [], pools)
@@ -241,7 +246,7 @@ def _analyse_structure(wl: Workload, req: Request, reads: LogReads, on_plan) -> 
             if on_plan:
                 on_plan(idx, "reads-space frontier")
             entry["frontier"] = frontier(p, wl.hist, options)
-    if s.model == "bplus":
+    if s.structure.has_balanced_shape:
         for entry, p in zip(run["plans"], plans, strict=True):
             entry["balanced"] = balanced_figures(wl.hist, p, req.pool_pages)
     if reads.scans is not None:

@@ -22,6 +22,7 @@ from .cli_build import build_cmd, probe_cmd
 from .cli_options import (
     ChildOpt,
     CountColumnOpt,
+    CurrentOpt,
     DatabaseArg,
     DistinctOpt,
     ExactOpt,
@@ -34,6 +35,7 @@ from .cli_options import (
     HeaderOpt,
     HoldoutOpt,
     HtmlOpt,
+    InternalFillOpt,
     JsonOpt,
     KeyBytesOpt,
     KeyOpt,
@@ -170,6 +172,8 @@ def recommend_cmd(
     model: ModelOpt = "btree",
     fanout: FanoutOpt = None,
     fill_factor: FillOpt = 1.0,
+    internal_fill: InternalFillOpt = None,
+    current: CurrentOpt = None,
     truncate_separators: TruncateOpt = False,
     exact_seconds: ExactOpt = 5.0,
     memory_limit: MemoryOpt = None,
@@ -202,6 +206,7 @@ def recommend_cmd(
             key_bytes,
             model,
             fill_factor,
+            internal_fill,
         )
         request = Request(
             settings,
@@ -218,6 +223,7 @@ def recommend_cmd(
             exact_seconds,
             BudgetSpec(max_pages, max_height),
             show_frontier,
+            current,
         )
         _run(
             database,

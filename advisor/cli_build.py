@@ -25,6 +25,7 @@ from .cli_options import (
     FillOpt,
     ForceOpt,
     HeaderOpt,
+    InternalFillOpt,
     JsonOpt,
     KeyBytesOpt,
     KeyOpt,
@@ -42,6 +43,7 @@ from .cli_options import (
 from .cli_support import check_model, guard, read_query
 from .errors import LayoutInvalid, OutputRefused, SettingInvalid
 from .report import render_probe
+from .structures import structure_names
 from .workload import load_workload
 
 
@@ -75,6 +77,7 @@ def build_cmd(
     model: Annotated[str, option("--model", "Index structure: btree or bplus.", GEO, metavar="btree|bplus")] = "btree",
     fanout: FanoutOpt = None,
     fill_factor: FillOpt = 1.0,
+    internal_fill: InternalFillOpt = None,
     layout: Annotated[
         str,
         option(
@@ -101,7 +104,7 @@ def build_cmd(
         if layout not in ("advised", "even"):
             raise SettingInvalid(f"--layout must be advised or even, got {layout!r}")
         check_model(model, [keys_per_page] if keys_per_page else None, fanout)
-        if model == "both":
+        if len(structure_names(model)) != 1:
             raise SettingInvalid("a build writes one structure: --model btree or bplus")
         if out.exists() and not force:
             raise OutputRefused(f"{out} exists; pass --force to replace it")
@@ -115,6 +118,7 @@ def build_cmd(
             key_bytes,
             model,
             fill_factor,
+            internal_fill,
         )
         request = Request(
             settings,

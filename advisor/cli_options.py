@@ -89,7 +89,16 @@ FillOpt = Annotated[
     float,
     option(
         "--fill-factor",
-        "Share of each page a bulk loader fills (0..1]: btree: the even split's pages (the baseline; the advice may fill pages); bplus: leaf pages.",
+        "Share of each leaf page a bulk loader fills (0..1] in the even split, the baseline (the advice may fill pages).",
+        GEO,
+        metavar="SHARE",
+    ),
+]
+InternalFillOpt = Annotated[
+    float | None,
+    option(
+        "--internal-fill",
+        "Share of each internal page the bulk loader fills (0..1] (default: the --fill-factor).",
         GEO,
         metavar="SHARE",
     ),
@@ -117,6 +126,15 @@ MaxHeightOpt = Annotated[
 FrontierOpt = Annotated[
     bool,
     option("--frontier/--no-frontier", "Also plan each page size at 1.1x to 2x the pages and with no page limit.", BUD),
+]
+CurrentOpt = Annotated[
+    str | None,
+    option(
+        "--current",
+        "Your existing index to cost beside the plans: sqlite:PATH:INDEX (an SQLite file, opened read-only).",
+        IN,
+        metavar="sqlite:PATH:INDEX",
+    ),
 ]
 JsonOpt = Annotated[bool, option("--json", "Print one JSON object on stdout instead of the report.", OUT)]
 ExportOpt = Annotated[

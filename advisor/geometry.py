@@ -71,7 +71,7 @@ class Geometry:
     key_bytes: float
     record_pointer: int
     child_pointer: int
-    fill_factor: float = 1.0  # B+-tree leaves: share of each leaf page that is filled
+    fill_factor: float = 1.0  # the even split's leaves: share of each page a bulk loader fills
     separator_bytes: float | None = None  # B+-tree internal pages: shortened separators, if measured
 
     @property
@@ -88,10 +88,9 @@ class Geometry:
 
     @property
     def leaf_capacity(self) -> int:
-        """B+-tree: entries (key + record pointer) per leaf, at the fill factor."""
-        return int(
-            math.floor((self.page_size - self.page_header) * self.fill_factor / (self.key_bytes + self.record_pointer))
-        )
+        """B+-tree: entries (key + record pointer) per full leaf (the even split fills
+        ``fill_factor`` of it, as a bulk loader does; the advice may fill it)."""
+        return int(math.floor((self.page_size - self.page_header) / (self.key_bytes + self.record_pointer)))
 
     @property
     def fanout(self) -> int:
@@ -128,10 +127,10 @@ def geometry_for(
     page_header: int = DEFAULT_PAGE_HEADER,
     record_pointer: int = DEFAULT_RECORD_POINTER,
     child_pointer: int = DEFAULT_CHILD_POINTER,
-    model: str = "btree",
     fill_factor: float = 1.0,
 ) -> Geometry:
-    """Check the figures and return the geometry; at least one key must fit."""
+    """Check the figures and return the geometry (whether a key fits is the structure's check:
+    :meth:`advisor.structures.ClassicTree.capacity`)."""
     if page_header < 0 or record_pointer < 0 or child_pointer < 0:
         raise SettingInvalid("page header and pointer sizes must not be negative")
     if key_bytes <= 0:
@@ -141,19 +140,4 @@ def geometry_for(
     g = Geometry(
         int(page_size), int(page_header), float(key_bytes), int(record_pointer), int(child_pointer), float(fill_factor)
     )
-    if model == "bplus":
-        if g.leaf_capacity < 1 or g.fanout < 2:
-            need = max(
-                page_header + (key_bytes + record_pointer) / fill_factor, page_header + key_bytes + 2 * child_pointer
-            )
-            raise SettingInvalid(
-                f"page size {page_size} bytes cannot hold a B+-tree leaf entry and two child pointers: "
-                f"the minimum is {int(math.ceil(need))} bytes"
-            )
-        return g
-    if g.capacity < 1:
-        raise SettingInvalid(
-            f"page size {page_size} bytes holds no key: the minimum is {g.min_page_size} bytes "
-            f"({page_header} header + {g.entry_bytes:g} per key)"
-        )
     return g

@@ -19,7 +19,8 @@ while an internal page with m <= ``fanout`` children holds m - 1 separator ranks
 being the rank of the first key in child t's subtree. In a B+-tree every lookup, hit or miss,
 costs the depth of the leaf whose key range covers it; a value between two leaves' keys goes to
 the left leaf (separators are the right leaf's first key), one before the first key to the
-first leaf. Only :func:`end_pages` and :func:`check_layout` know the family.
+first leaf. Only :func:`end_pages` and :func:`check_layout` know the family (the engine-side rule, a
+search that always ends in a leaf, is :mod:`advisor.leaf_search`).
 """
 
 from __future__ import annotations
@@ -216,7 +217,7 @@ def _check_bplus(layout: Layout) -> None:
     internal pages have 2..F children in slots 0..m-1 (m - 1 separators), and child t's subtree
     covers exactly the ranks from separator t (or the page's own first rank) up to separator t+1."""
     if layout.capacity < 1 or layout.fanout < 2:
-        raise LayoutInvalid("a B+-tree needs leaf capacity >= 1 and fanout >= 2")
+        raise LayoutInvalid("a B+-tree needs a leaf capacity of at least 1 and a fanout of at least 2")
     if _check_empty(layout):
         return
     if layout.leaf is None or layout.leaf.shape != (layout.pages,):
@@ -376,30 +377,3 @@ def page_traffic(layout: Layout, hist: Histogram) -> np.ndarray:
         at = np.nonzero(depth == d)[0]
         np.add.at(acc, layout.parent[at], acc[at])
     return acc
-
-
-def evaluate_leaf_search(layout: Layout, hist: Histogram) -> float:
-    """Expected page reads under the other end-of-search rule: every search ends at a leaf.
-
-    Some engines' index seek does not stop at an interior match (SQLite's compares a prefix of
-    the stored record and always lands in a leaf), so a hit on a key held in an interior page
-    costs the depth of the leaf holding its in-order predecessor (the right-most leaf of the
-    subtree left of it), not the depth of its own page. Misses are costed as in
-    :func:`evaluate`. The classic figures of this tool apply to engines whose search stops at the
-    page holding the key (like the files ``advisor build`` writes); this rule is for costing an
-    engine's real tree, e.g. in the SQLite cross-check.
-    """
-    if layout.structure != "btree" or hist.n == 0 or hist.total <= 0:
-        return evaluate(layout, hist).expected_page_reads
-    depth = layout.depths()
-    key_page, gap_page = end_pages(layout)
-    inner = np.zeros(layout.pages, dtype=bool)
-    inner[layout.parent[1:]] = True
-    target = np.arange(hist.n)
-    for _ in range(hist.n):
-        move = inner[key_page[target]] & (target > 0)
-        if not move.any():
-            break
-        target[move] -= 1
-    key_depth = depth[key_page[target]]
-    return float((hist.p @ key_depth + hist.q @ depth[gap_page]) / hist.total)

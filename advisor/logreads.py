@@ -93,3 +93,8 @@ def truncated_separator_bytes(wl: Workload, leaf_capacity: int) -> float:
             lcp += 1
         widths.append(min(len(right), lcp + 1))
     return float(np.mean(widths)) + LENGTH_PREFIX
+
+
+def ranked_keys(wl: Workload) -> np.ndarray:
+    """The table's distinct keys in rank order (for comparing with an existing index's keys)."""
+    return wl.con.execute(f"SELECT k FROM {KEYS_TABLE} ORDER BY r").fetchnumpy()["k"]

@@ -14,7 +14,6 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 
 from .budget import Budget, BudgetSpec, resolve
-from .errors import SettingInvalid
 from .geometry import Geometry
 from .histogram import Histogram
 from .layout import Cost, Layout, check_layout, evaluate
@@ -61,6 +60,12 @@ class Plan:
     model: str = "btree"
     fanout: int = 0
     budget: Budget = Budget(None, None)
+    leaf_fill: float = 1.0  # the even split's fill factors (the bulk loader's)
+    internal_fill: float = 1.0
+
+    @property
+    def structure(self) -> ClassicTree | BPlusTree:
+        return structure_for(self.model, self.fanout, self.leaf_fill, self.internal_fill)
 
     @property
     def page_size(self) -> int | None:
@@ -99,7 +104,8 @@ class PlanOptions:
     # 10-50x above the measured time: n = 1,000 took 0.2 s), and the most one subtree may take:
     within_subtree_ops: float = 5e8
     quick: bool = False  # a frontier point: large tables skip the slow unconstrained builders
-    even_fill: float = 1.0  # classic B-tree: share of each even-split page a bulk loader fills
+    leaf_fill: float = 1.0  # share of each even-split leaf page a bulk loader fills (the baseline)
+    internal_fill: float | None = None  # ... and of each internal page (default: the leaves' fill)
 
 
 def plan_capacity(
@@ -154,16 +160,14 @@ def plan_capacity(
         model=shape.name,
         fanout=shape.fanout,
         budget=budget,
+        leaf_fill=shape.leaf_fill,
+        internal_fill=shape.internal_fill,
     )
 
 
 def _structure(opts: PlanOptions, geometry: Geometry | None) -> ClassicTree | BPlusTree:
-    if opts.model != "bplus":
-        return ClassicTree(opts.even_fill)
-    F = geometry.fanout if geometry else opts.fanout
-    if F < 2:
-        raise SettingInvalid("a B+-tree plan needs a fanout of at least 2 (give --fanout with --keys-per-page)")
-    return BPlusTree(F)
+    shape = structure_for(opts.model, opts.fanout, opts.leaf_fill, opts.internal_fill)
+    return shape.with_fanout(geometry, opts.fanout)
 
 
 def plan_budget(spec: BudgetSpec, uni: Layout, n: int, c: int, shape: ClassicTree | BPlusTree) -> Budget:

@@ -11,6 +11,7 @@ from rich.panel import Panel
 from rich.table import Table
 from rich.text import Text
 
+from .report_current import current_table
 from .report_format import BAR_WIDTH, FOOTER, FRONTIER_BAR, bar, cap_label, num, pair, pct, size_text
 from .report_sections import (
     balanced_table,
@@ -221,6 +222,7 @@ def render_run(run: dict) -> Group:
         parts += [plans_table(run), size_table(run), depth_table(run)]
         # optional sections: each returns None when the run holds none of its figures
         for section in (
+            current_table,
             frontier_table,
             pool_table,
             balanced_table,

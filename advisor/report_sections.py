@@ -274,13 +274,19 @@ def method_notes(run: dict) -> Text:
             "Cost model: a hit reads every page from the root to the page holding the key; a miss reads "
             "pages until it meets an empty child slot."
         )
+    fills = {(f["leaf"], f["internal"]) for f in (p.get("even_fill") for p in run["plans"]) if f}
+    for leaf, internal in sorted(fills):
+        lines.append(
+            f"Even split filled as a bulk loader would: leaves {100 * leaf:.0f}%, internal pages {100 * internal:.0f}% "
+            "(--fill-factor, --internal-fill); the advice may fill its pages."
+        )
     return Text("\n".join(lines), style="dim")
 
 
 def _bplus_formula(g: dict) -> str:
     sep = g["separator_bytes"] if g.get("separator_bytes") is not None else g["key_bytes"]
     text = (
-        f"B+-tree leaves: floor(({g['page_size']} - {g['page_header']}) x {g['fill_factor']:g} / "
+        f"B+-tree leaves: floor(({g['page_size']} - {g['page_header']}) / "
         f"({g['key_bytes']:g} key + "
         f"{g['record_pointer']} record ptr)) = {g['leaf_capacity']} keys; internal: floor(({g['page_size']} - "
         f"{g['page_header']} + {sep:g}) / ({sep:g} separator + {g['child_pointer']})) = {g['fanout']} children"

@@ -37,7 +37,8 @@ def plan_dict(plan: Plan) -> dict:
         "keys_per_page": int(plan.keys_per_page),
         "page_size": plan.page_size,
         "model": plan.model,
-        "fanout": int(plan.fanout) if plan.model == "bplus" else None,
+        "fanout": int(plan.fanout) or None,  # a classic B-tree has no fanout of its own
+        "even_fill": {"leaf": float(plan.leaf_fill), "internal": float(plan.internal_fill)},
         "geometry": plan.geometry.as_dict() if plan.geometry else None,
         "optimized": cost_dict(plan.recommended_cost, plan.recommended, plan.page_size) | {"method": plan.method},
         "uniform": cost_dict(plan.uniform_cost, plan.uniform, plan.page_size),

@@ -8,10 +8,13 @@ constructions (unlimited and within a budget) and its lower bounds. ``structure_
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 
 from .budget import Budget
+from .errors import SettingInvalid
+from .geometry import Geometry
 from .histogram import Histogram
 from .layout import Layout
 from .optimize import (
@@ -54,18 +57,41 @@ BPLUS_WITHIN_MAX_KEYS = 1500  # its tables are (n + 1)^2 per forest size and lev
 Builder = tuple[str, Callable[[], Layout]]
 
 
+MODELS = ("btree", "bplus")
+
+
+def filled(slots: int, fill: float) -> int:
+    """Entries a bulk loader puts in a page of ``slots`` at fill factor ``fill`` (at least one)."""
+    return max(1, int(slots * fill + 1e-9))
+
+
 @dataclass(frozen=True)
 class ClassicTree:
-    """Classic B-tree: every page holds keys and their records, c + 1 child slots. ``even_fill``:
-    the share of each page a bulk loader fills in the even split (the baseline); the advice may
-    fill pages completely."""
+    """Classic B-tree: every page holds keys and their records, c + 1 child slots.
+    ``leaf_fill`` / ``internal_fill``: the share of each leaf / internal page a bulk loader fills
+    in the even split (the baseline); the advice may fill pages completely."""
 
-    even_fill: float = 1.0
+    leaf_fill: float = 1.0
+    internal_fill: float = 1.0
     name = "btree"
     fanout = 0
+    export_suffix = ""  # file-name suffix when both structures are exported
+    has_balanced_shape = False  # no one-depth-leaves variant to report
+
+    def capacity(self, g: Geometry) -> int:
+        """Keys per page at this page geometry; a page that holds no key is an impossible setting."""
+        if g.capacity < 1:
+            raise SettingInvalid(
+                f"page size {g.page_size} bytes holds no key: the minimum is {g.min_page_size} bytes "
+                f"({g.page_header} header + {g.entry_bytes:g} per key)"
+            )
+        return g.capacity
+
+    def with_fanout(self, g: Geometry | None, fanout: int) -> ClassicTree:
+        return self
 
     def even_split(self, n: int, c: int) -> Layout:
-        return uniform_layout(n, max(1, int(c * self.even_fill + 1e-9)))
+        return uniform_layout(n, c, filled(c, self.leaf_fill), filled(c, self.internal_fill))
 
     def least(self, n: int, c: int, even: Layout) -> tuple[int, int, str]:
         """(fewest pages, fewest levels, note for an impossible page budget): N keys need
@@ -128,15 +154,41 @@ class BPlusTree:
     """B+-tree: every key in a leaf of at most L keys, internal pages of at most ``fanout``
     children; leaves may sit at different depths."""
 
-    fanout: int
+    fanout: int = 0
+    leaf_fill: float = 1.0
+    internal_fill: float = 1.0
     name = "bplus"
+    export_suffix = "-bplus"
+    has_balanced_shape = True
+
+    def capacity(self, g: Geometry) -> int:
+        """Leaf capacity L at this page geometry; it must hold an entry and a page two children."""
+        if g.leaf_capacity < 1 or g.fanout < 2:
+            need = max(
+                g.page_header + g.key_bytes + g.record_pointer, g.page_header + g.key_bytes + 2 * g.child_pointer
+            )
+            raise SettingInvalid(
+                f"page size {g.page_size} bytes cannot hold a B+-tree leaf entry and two child pointers: "
+                f"the minimum is {int(math.ceil(need))} bytes"
+            )
+        return g.leaf_capacity
+
+    def with_fanout(self, g: Geometry | None, fanout: int) -> BPlusTree:
+        """This structure at one page size: the geometry's fanout, or ``fanout`` given directly."""
+        F = g.fanout if g else fanout
+        if F < 2:
+            raise SettingInvalid("a B+-tree plan needs a fanout of at least 2 (give --fanout with --keys-per-page)")
+        return BPlusTree(F, self.leaf_fill, self.internal_fill)
 
     def even_split(self, n: int, c: int) -> Layout:
-        return uniform_bplus(n, c, self.fanout)
+        return uniform_bplus(
+            n, c, self.fanout, filled(c, self.leaf_fill), max(2, filled(self.fanout, self.internal_fill))
+        )
 
     def least(self, n: int, c: int, even: Layout) -> tuple[int, int, str]:
-        note = f"B+-tree plans keep at least the even split's {even.pages} pages (fewer is not built)"
-        return even.pages, bplus_height(n, c, self.fanout), note
+        full = uniform_bplus(n, c, self.fanout).pages
+        note = f"B+-tree plans keep at least the full even split's {full} pages (fewer is not built)"
+        return full, bplus_height(n, c, self.fanout), note
 
     def exact_cost(self, fit: Histogram, c: int) -> tuple[float, float]:
         if fit.n <= c:
@@ -187,6 +239,24 @@ class BPlusTree:
         return None
 
 
-def structure_for(model: str, fanout: int = 0) -> ClassicTree | BPlusTree:
-    """The structure a model name asks for ("btree" or "bplus" with its fanout)."""
-    return BPlusTree(fanout) if model == "bplus" else ClassicTree()  # (fill: see planner._structure)
+def structure_names(model: str) -> list[str]:
+    """The structures a request's model asks for: one, or both side by side."""
+    if model == "both":
+        return list(MODELS)
+    if model not in MODELS:
+        raise SettingInvalid(f"--model must be btree, bplus or both, got {model!r}")
+    return [model]
+
+
+def structure_for(
+    model: str, fanout: int = 0, leaf_fill: float = 1.0, internal_fill: float | None = None
+) -> ClassicTree | BPlusTree:
+    """The structure a model name asks for ("btree", or "bplus" with its fanout), with the bulk
+    loader's fill factors of its even split (internal pages default to the leaves' fill)."""
+    for fill in (leaf_fill, internal_fill if internal_fill is not None else leaf_fill):
+        if not 0 < fill <= 1:
+            raise SettingInvalid(f"fill factor must be in (0, 1], got {fill:g}")
+    inner = leaf_fill if internal_fill is None else internal_fill
+    if model == "bplus":
+        return BPlusTree(fanout, leaf_fill, inner)
+    return ClassicTree(leaf_fill, inner)

@@ -184,9 +184,47 @@ def test_fill_factor_sets_the_classic_baseline_and_its_budget():
     rng = np.random.default_rng(8)
     hist = _hist(rng, 5_000, 1.0)
     full = plan_capacity(hist, 50, options=PlanOptions(exact_seconds=0))
-    part = plan_capacity(hist, 50, options=PlanOptions(exact_seconds=0, even_fill=0.8))
+    part = plan_capacity(hist, 50, options=PlanOptions(exact_seconds=0, leaf_fill=0.8))
     assert part.uniform.pages > full.uniform.pages and part.uniform.page_sizes().max() <= 40
     check_layout(part.recommended, part.budget)
     assert part.budget.max_pages == part.uniform.pages
     assert part.recommended.page_sizes().max() <= 50  # the advice may fill its pages
     assert part.recommended_cost.expected_page_reads <= full.recommended_cost.expected_page_reads + 1e-12
+
+
+def test_fill_factors_of_leaves_and_internal_pages_in_both_even_splits():
+    """A bulk loader fills leaves and internal pages to their own fill factors (common practice:
+    leaves short of full, internal pages fuller, or the reverse); the even split keeps the page's
+    slot count as its capacity, so its mean fill shows the loader's fill."""
+    from advisor.layout import mean_fill
+    from advisor.optimize.bplus import uniform_bplus
+
+    n, c = 20_000, 40
+    classic = uniform_layout(n, c, leaf_keys=30, internal_keys=20)
+    check_layout(classic)
+    sizes, leaf = classic.page_sizes(), ~np.isin(np.arange(classic.pages), classic.parent)
+    assert classic.capacity == c and sizes[leaf].max() <= 30 and sizes[~leaf].max() <= 20
+    # fewer keys per leaf: about n / 31 leaves at least (each leaf and one separator beside it)
+    assert int(leaf.sum()) >= n // 31
+    assert mean_fill(classic) <= 0.76
+    bplus = uniform_bplus(n, c, 16, leaf_keys=30, children=12)
+    check_layout(bplus)
+    bsizes = bplus.page_sizes()
+    assert bsizes[bplus.leaf].max() == 30 and int(bplus.leaf.sum()) == -(-n // 30)
+    assert (bsizes[~bplus.leaf] + 1).max() <= 12  # children per internal page
+    assert bplus.capacity == c and bplus.fanout == 16
+    # the plan: the advice may fill pages, the budget is the filled baseline's size
+    rng = np.random.default_rng(9)
+    hist = _hist(rng, 3_000, 1.0)
+    for model, fanout in (("btree", 0), ("bplus", 8)):
+        full = plan_capacity(hist, 20, options=PlanOptions(exact_seconds=0, model=model, fanout=fanout))
+        part = plan_capacity(
+            hist, 20, options=PlanOptions(exact_seconds=0, model=model, fanout=fanout, leaf_fill=0.7, internal_fill=0.9)
+        )
+        assert (part.leaf_fill, part.internal_fill) == (0.7, 0.9)
+        assert part.uniform.pages > full.uniform.pages
+        uni = part.uniform
+        leaves = uni.leaf if uni.leaf is not None else ~np.isin(np.arange(uni.pages), uni.parent)
+        assert uni.page_sizes()[leaves].max() <= 14
+        check_layout(part.recommended, part.budget)
+        assert part.recommended_cost.expected_page_reads <= full.recommended_cost.expected_page_reads + 1e-12

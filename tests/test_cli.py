@@ -108,6 +108,8 @@ def test_export_one_file_per_page_size_and_refuses_to_overwrite(small_db, tmp_pa
         (["--table", "items", "--key", "item_no", "--log", "/no/such.parquet"], 3, "log file not found"),
         (["--table", "items", "--key", "item_no", "--page-size", "80"], 5, "minimum is"),
         (["--table", "items", "--key", "item_no", "--keys-per-page", "0"], 5, "at least 1"),
+        (["--table", "items", "--key", "item_no", "--internal-fill", "1.5"], 5, "fill factor"),
+        (["--table", "items", "--key", "item_no", "--fill-factor", "0"], 5, "fill factor"),
     ],
 )
 def test_errors_are_one_line_with_their_exit_code(small_db, args, code, words):
@@ -200,3 +202,81 @@ def test_demo_with_both_structures(tmp_path):
     )
     assert res.exit_code == 0, res.stderr
     assert {p["model"] for p in json.loads(res.stdout)["plans"]} == {"btree", "bplus"}
+
+
+def test_fill_factors_reach_the_baseline_json_and_report(small_db):
+    """--fill-factor / --internal-fill build the even split as a bulk loader fills it, for both
+    structures; the JSON gives the fills, the report says them, the advice may fill pages."""
+    res = _plan(small_db, "--json", "--page-size", "4096", "--model", "both")
+    full = {p["model"]: p for p in json.loads(res.stdout)["plans"]}
+    res = _plan(
+        small_db, "--json", "--page-size", "4096", "--model", "both", "--fill-factor", "0.6", "--internal-fill", "0.8"
+    )
+    assert res.exit_code == 0, res.stderr
+    for p in json.loads(res.stdout)["plans"]:
+        assert p["even_fill"] == {"leaf": 0.6, "internal": 0.8}
+        assert p["keys_per_page"] == full[p["model"]]["keys_per_page"]  # the page's slots stay the same
+        assert p["uniform"]["pages"] > full[p["model"]]["uniform"]["pages"]
+        assert p["uniform"]["mean_fill"] < 0.8
+        assert p["optimized"]["pages"] <= p["budget"]["max_pages"]
+    text = _plan(small_db, "--page-size", "4096", "--fill-factor", "0.6", "--internal-fill", "0.8").stdout
+    assert "leaves 60%, internal pages 80%" in " ".join(text.split())
+
+
+def _sqlite_copy(small_db, path, keys_filter=""):
+    """The catalogue's keys in an SQLite table with a unique index, built from sorted keys."""
+    import sqlite3
+
+    with duckdb.connect(str(small_db), read_only=True) as con:
+        keys = [int(k) for (k,) in con.execute(f"SELECT item_no FROM items {keys_filter} ORDER BY 1").fetchall()]
+    lite = sqlite3.connect(path)
+    lite.execute("PRAGMA page_size = 4096")
+    lite.execute("CREATE TABLE items (item_no INTEGER, bin INTEGER)")
+    lite.executemany("INSERT INTO items VALUES (?, ?)", [(k, k % 7) for k in keys])
+    lite.execute("CREATE UNIQUE INDEX items_no ON items (item_no)")
+    lite.commit()
+    lite.close()
+    return keys
+
+
+def test_current_sqlite_index_is_costed_beside_the_plans(small_db, tmp_path):
+    """--current reads the user's SQLite index from its file (the SQLite "Database File Format"
+    document; the reader itself is checked against counted reads in test_sqlite_check.py) and
+    costs it with the leaf rule on the run's histogram; the file is left unchanged."""
+    from advisor.leaf_search import evaluate_leaf_search
+    from advisor.sqlite_tree import index_layout
+
+    lite = tmp_path / "copy.sqlite"
+    _sqlite_copy(small_db, lite)
+    before = lite.read_bytes()
+    res = _plan(small_db, "--json", "--page-size", "4096", "--current", f"sqlite:{lite}:items_no")
+    assert res.exit_code == 0, res.stderr
+    run = json.loads(res.stdout)
+    cur = run["current"]
+    layout, _keys, pages = index_layout(lite, "items_no")
+    with load_workload(small_db, "items", "item_no", "probes") as wl:
+        expected = evaluate_leaf_search(layout, wl.hist)
+    assert cur["expected_page_reads"] == pytest.approx(expected)
+    assert cur["pages"] == len(pages) and cur["page_size"] == 4096
+    assert 1 <= cur["expected_page_reads"] <= cur["height"]
+    assert lite.read_bytes() == before
+    text = _plan(small_db, "--page-size", "4096", "--current", f"sqlite:{lite}:items_no").stdout
+    assert "Your current index" in text and "your index" in text
+
+
+@pytest.mark.parametrize(
+    "spec, code, words",
+    [
+        ("postgres:x:y", 5, "sqlite:PATH:INDEX"),
+        ("sqlite:/no/such.sqlite:idx", 3, "not found"),
+        ("sqlite:{lite}:no_such_index", 4, "no index"),
+        ("sqlite:{half}:items_no", 4, "same keys"),
+    ],
+)
+def test_current_index_errors_are_one_line(small_db, tmp_path, spec, code, words):
+    lite, half = tmp_path / "copy.sqlite", tmp_path / "half.sqlite"
+    _sqlite_copy(small_db, lite)
+    _sqlite_copy(small_db, half, "WHERE item_no % 2 = 0")
+    res = _plan(small_db, "--page-size", "4096", "--current", spec.format(lite=lite, half=half))
+    assert res.exit_code == code, (res.stdout, res.stderr)
+    assert words in res.stderr and len(res.stderr.strip().splitlines()) == 1

@@ -22,7 +22,8 @@ import numpy as np
 import pytest
 
 from advisor.histogram import Histogram
-from advisor.layout import check_layout, evaluate, evaluate_leaf_search
+from advisor.layout import check_layout, evaluate
+from advisor.leaf_search import evaluate_leaf_search
 from advisor.sqlite_tree import index_layout
 
 apsw = pytest.importorskip("apsw")

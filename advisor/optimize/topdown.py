@@ -18,16 +18,17 @@ from ..layout import Layout, LayoutBuilder
 RootChooser = Callable[[int, int, Any], tuple[np.ndarray, Any]]
 
 
-def build_top_down(n: int, c: int, choose: RootChooser, state: Any = None) -> Layout:
+def build_top_down(n: int, c: int, choose: RootChooser, state: Any = None, leaf_keys: int | None = None) -> Layout:
     """``choose(lo, hi, state)`` returns the ascending key ranks of the page over keys lo..hi-1
-    (a range of more than c keys) and the state handed to its children."""
+    (a range of more than ``leaf_keys`` keys, default c) and the state handed to its children."""
+    leaf = c if leaf_keys is None else leaf_keys
     b = LayoutBuilder(n, c)
     if n == 0:
         return b.build()
     todo = deque([(0, n, -1, -1, state)])
     while todo:
         lo, hi, parent, slot, st = todo.popleft()
-        if hi - lo <= c:
+        if hi - lo <= leaf:
             b.add(np.arange(lo, hi), parent, slot)
             continue
         roots, child_state = choose(lo, hi, st)
