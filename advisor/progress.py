@@ -49,8 +49,14 @@ def steps(quiet: bool = False):
         yield s
         return
     if sys.stderr.isatty():
-        bar = Progress(SpinnerColumn(), TextColumn("{task.description}"), BarColumn(), TimeElapsedColumn(),
-                       console=Console(stderr=True), transient=True)  # fmt: skip
+        bar = Progress(
+            SpinnerColumn(),
+            TextColumn("{task.description}"),
+            BarColumn(),
+            TimeElapsedColumn(),
+            console=Console(stderr=True),
+            transient=True,
+        )
         with bar:
             yield Steps(bar)
         return

@@ -56,9 +56,21 @@ def _rows(sql_file: str) -> list[tuple]:
 
 def _recommend(db, *args):
     res = runner.invoke(
-        app, ["recommend", str(db), "--table", "packets", "--key", "packet_no", "--keys-per-page", "4", "--json",
-              "--no-frontier", *args],
-    )  # fmt: skip
+        app,
+        [
+            "recommend",
+            str(db),
+            "--table",
+            "packets",
+            "--key",
+            "packet_no",
+            "--keys-per-page",
+            "4",
+            "--json",
+            "--no-frontier",
+            *args,
+        ],
+    )
     assert res.exit_code == 0, res.stderr
     return json.loads(res.stdout)
 
@@ -103,8 +115,9 @@ def test_pre_aggregated_parquet_counts_by_query_and_by_directory(catalogue):
     for run in (by_query, by_dir, by_glob):
         assert run["lookups"] == 94 and run["misses"] == 2
     assert by_dir["plans"][0]["optimized"] == by_query["plans"][0]["optimized"]
-    with load_workload(catalogue, "packets", "packet_no", None, count_column="n",
-                       log_query=(HERE / "counts/lookups.sql").read_text()) as wl:  # fmt: skip
+    with load_workload(
+        catalogue, "packets", "packet_no", None, count_column="n", log_query=(HERE / "counts/lookups.sql").read_text()
+    ) as wl:
         assert wl.hist.p.max() == 80 and wl.hist.total == 94
     assert _digest(catalogue) == before
 
@@ -113,13 +126,38 @@ def test_log_sql_that_writes_is_refused_and_changes_nothing(catalogue, tmp_path)
     before = _digest(catalogue)
     bad = tmp_path / "bad.sql"
     bad.write_text("DELETE FROM packets")
-    res = runner.invoke(app, ["recommend", str(catalogue), "--table", "packets", "--key", "packet_no",
-                              "--log-sql", str(bad)])  # fmt: skip
+    res = runner.invoke(
+        app, ["recommend", str(catalogue), "--table", "packets", "--key", "packet_no", "--log-sql", str(bad)]
+    )
     assert res.exit_code == 4 and "--log-sql" in res.stderr and len(res.stderr.strip().splitlines()) == 1
-    missing = runner.invoke(app, ["recommend", str(catalogue), "--table", "packets", "--key", "packet_no",
-                                  "--log-sql", str(tmp_path / "none.sql")])  # fmt: skip
+    missing = runner.invoke(
+        app,
+        [
+            "recommend",
+            str(catalogue),
+            "--table",
+            "packets",
+            "--key",
+            "packet_no",
+            "--log-sql",
+            str(tmp_path / "none.sql"),
+        ],
+    )
     assert missing.exit_code == 3
-    both = runner.invoke(app, ["recommend", str(catalogue), "--table", "packets", "--key", "packet_no",
-                               "--log", "counts", "--log-sql", "counts/lookups.sql"])  # fmt: skip
+    both = runner.invoke(
+        app,
+        [
+            "recommend",
+            str(catalogue),
+            "--table",
+            "packets",
+            "--key",
+            "packet_no",
+            "--log",
+            "counts",
+            "--log-sql",
+            "counts/lookups.sql",
+        ],
+    )
     assert both.exit_code == 5
     assert _digest(catalogue) == before

@@ -26,6 +26,9 @@ import numpy as np
 from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
 from .exact import ROW_BLOCK, fits_int32, row_min_of_sums, table_type
+from .uniform import bplus_height, leaf_count, uniform_bplus
+
+__all__ = ["bplus_height", "leaf_count", "uniform_bplus"]  # the even split lives in uniform.py
 
 
 def bplus_weights(hist: Histogram) -> np.ndarray:
@@ -35,81 +38,6 @@ def bplus_weights(hist: Histogram) -> np.ndarray:
     w = hist.p + hist.q[1:]
     w[0] += hist.q[0]
     return w
-
-
-def leaf_count(n: int, L: int) -> int:
-    return -(-n // L)
-
-
-def bplus_height(n: int, L: int, F: int) -> int:
-    """Pages per lookup of the uniform B+-tree: 1 + ceil(log_F(ceil(n / L))), 0 for no keys."""
-    if n == 0:
-        return 0
-    leaves, h = leaf_count(n, L), 1
-    reach = 1
-    while reach < leaves:
-        reach *= F
-        h += 1
-    return h
-
-
-def uniform_bplus(n: int, L: int, F: int, leaf_keys: int | None = None, children: int | None = None) -> Layout:
-    """Leaves filled left to right with L keys (the last takes the rest), all at the minimum
-    height, internal pages splitting their leaves evenly with the fewest children that keep
-    every leaf at that depth (each internal page needs 2..F children; with F = 2 and a leaf
-    count that is not a power of two some leaves must sit one level higher).
-
-    A bulk loader's fill factor: leaves of ``leaf_keys`` keys and internal pages of at most
-    ``children`` children (defaults L and F); the layout's capacities stay L and F."""
-    b = LayoutBuilder(n, L, "bplus", F)
-    if n == 0:
-        return b.build()
-    L = max(1, min(L, leaf_keys or L))
-    F = max(2, min(F, children or F))
-    leaves = leaf_count(n, L)
-    todo = deque([(0, leaves, -1, -1, bplus_height(leaves * L, L, F))])
-    while todo:
-        lo, hi, parent, slot, height = todo.popleft()  # leaf indices lo..hi-1, levels wanted
-        count = hi - lo
-        if count == 1:
-            b.add(np.arange(lo * L, min(n, (lo + 1) * L)), parent, slot, leaf=True)
-            continue
-        height = max(2, min(height, bplus_height(count * L, L, F) + 1))
-        low, high = 2 ** (height - 2), F ** (height - 2)  # leaves a child of height-1 levels may hold
-        m = max(2, -(-count // high))
-        if count // m < low:  # cannot keep every leaf at this depth: use the child's own height
-            height = bplus_height(count * L, L, F)
-            m = max(2, -(-count // F ** (height - 2)))
-        runs = np.full(m, count // m, dtype=np.int64)
-        runs[: count % m] += 1
-        edges = lo + np.concatenate([[0], np.cumsum(runs)])
-        seps = edges[1:-1] * L
-        page = b.add(seps, parent, slot, leaf=False)
-        for t in range(m):
-            todo.append((int(edges[t]), int(edges[t + 1]), page, t, height - 1))
-    return b.build()
-    leaves = leaf_count(n, L)
-    todo = deque([(0, leaves, -1, -1, bplus_height(leaves * L, L, F))])
-    while todo:
-        lo, hi, parent, slot, height = todo.popleft()  # leaf indices lo..hi-1, levels wanted
-        count = hi - lo
-        if count == 1:
-            b.add(np.arange(lo * L, min(n, (lo + 1) * L)), parent, slot, leaf=True)
-            continue
-        height = max(2, min(height, bplus_height(count * L, L, F) + 1))
-        low, high = 2 ** (height - 2), F ** (height - 2)  # leaves a child of height-1 levels may hold
-        m = max(2, -(-count // high))
-        if count // m < low:  # cannot keep every leaf at this depth: use the child's own height
-            height = bplus_height(count * L, L, F)
-            m = max(2, -(-count // F ** (height - 2)))
-        runs = np.full(m, count // m, dtype=np.int64)
-        runs[: count % m] += 1
-        edges = lo + np.concatenate([[0], np.cumsum(runs)])
-        seps = edges[1:-1] * L
-        page = b.add(seps, parent, slot, leaf=False)
-        for t in range(m):
-            todo.append((int(edges[t]), int(edges[t + 1]), page, t, height - 1))
-    return b.build()
 
 
 @dataclass(frozen=True)
