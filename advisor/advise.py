@@ -26,10 +26,11 @@ from .histogram import Histogram
 from .holdout import holdout_rows
 from .layout import evaluate
 from .logreads import load_replay, load_scans, load_split, ranked_keys, truncated_separator_bytes
-from .pagesize import PROFILES, StorageProfile, best_choice, default_pool_bytes, page_size_table
+from .pagesize import PROFILES, StorageProfile, default_pool_bytes, page_size_table
 from .planner import Plan, PlanOptions, plan_capacity
+from .result import HoldoutResult, PlanResult, RunResult
 from .scans import scan_figures
-from .serialize import cost_dict, run_dict
+from .serialize import cost_dict
 from .structures import BPlusTree, ClassicTree, structure_for, structure_names
 from .workload import Workload
 
@@ -166,8 +167,17 @@ def plan_one(wl: Workload, req: Request) -> Plan:
 
 @dataclass
 class Analysis:
-    plans: list[Plan]
-    run: dict  # the JSON-ready result the report is drawn from
+    """A run's typed result and its JSON form (built once; the CLI adds exports and timings)."""
+
+    result: RunResult
+    run: dict = field(init=False)  # the JSON-ready result the report is drawn from
+
+    def __post_init__(self) -> None:
+        self.run = self.result.to_json()
+
+    @property
+    def plans(self) -> list[Plan]:
+        return [p.plan for p in self.result.plans]
 
 
 @dataclass(frozen=True)
@@ -202,32 +212,19 @@ def analyse(wl: Workload, req: Request, on_plan: Callable[[int, str], None] | No
     if req.truncate_separators and "bplus" not in models:
         raise SettingInvalid("--truncate-separators applies to --model bplus")
     reads = read_log_extras(wl, req)
-    parts: list[Analysis] = []
+    parts: list[RunResult] = []
     pool_bytes = req.pool_bytes
     for model in models:
         one = replace(req, settings=replace(req.settings, model=model), pool_bytes=pool_bytes)
         one = replace(one, truncate_separators=req.truncate_separators and one.settings.structure.has_balanced_shape)
         parts.append(_analyse_structure(wl, one, reads, on_plan))
-        pool_bytes = pool_bytes or default_pool_bytes(parts[0].plans)  # one pool in bytes for both structures
-    result = parts[0] if len(parts) == 1 else _side_by_side(parts)
-    if reads.current is not None:
-        result.run["current"] = reads.current
-    return result
+        # one pool in bytes for both structures
+        pool_bytes = pool_bytes or default_pool_bytes([p.plan for p in parts[0].plans])
+    result = parts[0] if len(parts) == 1 else parts[0].beside(parts[1])
+    return Analysis(replace(result, current=reads.current))
 
 
-def _side_by_side(parts: list[Analysis]) -> Analysis:
-    """One run of two structures: their plans, held-out rows and page-size rows in one list each."""
-    first, second = parts[0].run, parts[1].run
-    run = first | {"plans": first["plans"] + second["plans"]}
-    if "holdout" in run:
-        run["holdout"] = run["holdout"] | {"rows": run["holdout"]["rows"] + second["holdout"]["rows"]}
-    if "page_size_choice" in run:
-        both = run["page_size_choice"]["rows"] + second["page_size_choice"]["rows"]
-        run["page_size_choice"] = run["page_size_choice"] | {"rows": both} | best_choice(both)
-    return Analysis(parts[0].plans + parts[1].plans, run)
-
-
-def _analyse_structure(wl: Workload, req: Request, reads: LogReads, on_plan) -> Analysis:
+def _analyse_structure(wl: Workload, req: Request, reads: LogReads, on_plan) -> RunResult:
     """The whole run for one structure (``req.settings.model`` is btree or bplus)."""
     s = req.settings
     targets = capacities(s, wl.key_bytes)
@@ -236,37 +233,36 @@ def _analyse_structure(wl: Workload, req: Request, reads: LogReads, on_plan) -> 
     unique = list({(c, g.page_size if g else None): (c, g) for c, g in targets}.values())
     options = plan_options(req)
     plans = advise(wl.hist, unique, options, on_plan)
-    pools = [pool_figures(p.uniform, p.recommended, wl.hist, reads.replay, req.pool_pages) for p in plans]
-    run = run_dict(wl.hist, plans, _inputs(wl, reads), [], pools)
     pool_bytes = req.pool_bytes or default_pool_bytes(plans)
-    for entry, p in zip(run["plans"], plans, strict=True):
-        entry["pool_equivalent"] = pool_equivalent(p, wl.hist, pool_bytes, req.pool_pages)
-    if req.frontier:
-        for idx, (entry, p) in enumerate(zip(run["plans"], plans, strict=True)):
-            if on_plan:
-                on_plan(idx, "reads-space frontier")
-            entry["frontier"] = frontier(p, wl.hist, options)
-    if s.structure.has_balanced_shape:
-        for entry, p in zip(run["plans"], plans, strict=True):
-            entry["balanced"] = balanced_figures(wl.hist, p, req.pool_pages)
-    if reads.scans is not None:
-        first, last, weight, points = reads.scans
-        for entry, p in zip(run["plans"], plans, strict=True):
-            entry["range_scans"] = scan_figures(p, points, first, last, weight)
+    results = [_measure(wl.hist, idx, p, req, reads, options, pool_bytes, on_plan) for idx, p in enumerate(plans)]
+    holdout = None
     if reads.split is not None:
         train, test = reads.split
         alphas = [0.0] + ([req.smoothing] if req.smoothing > 0 else [])
-        run["holdout"] = {
-            "fraction": req.holdout,
-            "train_lookups": train.total,
-            "test_lookups": test.total,
-            "rows": holdout_rows(train, test, unique, alphas, options),
-        }
+        rows = holdout_rows(train, test, unique, alphas, options)
+        holdout = HoldoutResult(req.holdout, train.total, test.total, rows)
     profile = req.storage or PROFILES["nvme"]
     choice = page_size_table(plans, wl.hist, profile, _table_pool_bytes(req, plans))
-    if choice["rows"]:
-        run["page_size_choice"] = choice
-    return Analysis(plans, run)
+    return RunResult(wl.hist, _inputs(wl, reads), tuple(results), holdout, choice if choice["rows"] else None)
+
+
+def _measure(hist, idx: int, p: Plan, req: Request, reads: LogReads, options, pool_bytes: int, on_plan) -> PlanResult:
+    """Every figure of one plan the request asks for: pool, frontier, balanced shape, scans."""
+    pools = pool_figures(p.uniform, p.recommended, hist, reads.replay, req.pool_pages)
+    if req.frontier and on_plan:
+        on_plan(idx, "reads-space frontier")
+    scans = None
+    if reads.scans is not None:
+        first, last, weight, points = reads.scans
+        scans = scan_figures(p, points, first, last, weight)
+    return PlanResult(
+        p,
+        pools,
+        pool_equivalent(p, hist, pool_bytes, req.pool_pages),
+        frontier(p, hist, options) if req.frontier else None,
+        balanced_figures(hist, p, req.pool_pages) if p.structure.has_balanced_shape else None,
+        scans,
+    )
 
 
 def pool_equivalent(p: Plan, hist: Histogram, pool_bytes: int, pool_pages: list[int] | None) -> dict:
