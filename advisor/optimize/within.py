@@ -89,16 +89,16 @@ def within_budget_layout(
         if hi - lo <= c:
             b.add(np.arange(lo, hi), parent, slot)
             continue
-        keys, runs = _root_page(score, lo, hi, c, h, budget, tries, fill_first)
-        page = b.add(np.asarray(keys, dtype=np.int64), parent, slot)
-        need = [fewest_pages(z - a, c) for a, z in runs]
-        slack = budget - 1 - sum(need)
-        share = share_spare(slack, [float(cum[z] - cum[a]) for a, z in runs], need)
-        edges = [lo - 1] + keys + [hi]
-        for t in range(len(keys) + 1):
-            a, z = edges[t] + 1, edges[t + 1]
-            if z > a:
-                todo.append((a, z, h - 1, need[t] + share[t], page, t))
+        keys = np.asarray(_root_page(score, lo, hi, c, h, budget, tries, fill_first), dtype=np.int64)
+        page = b.add(keys, parent, slot)
+        starts = np.concatenate([[lo], keys + 1])  # child run t is keys starts[t]..ends[t]-1
+        ends = np.concatenate([keys, [hi]])
+        need_arr = -(-(ends - starts) // c)
+        need = need_arr.tolist()
+        slack = budget - 1 - int(need_arr.sum())
+        share = share_spare(slack, (cum[ends] - cum[starts]).tolist(), need)
+        for t in np.nonzero(ends > starts)[0].tolist():
+            todo.append((int(starts[t]), int(ends[t]), h - 1, need[t] + share[t], page, t))
     return b.build()
 
 
@@ -218,7 +218,7 @@ def _aligned_fillers(size: int, c: int, sub: int) -> np.ndarray:
 
 
 def _root_page(score: np.ndarray, lo: int, hi: int, c: int, h: int, budget: int, tries: int, fill_first: bool = False):
-    """Root keys of range lo..hi-1 (ascending global ranks) and the child runs below them."""
+    """Root keys of range lo..hi-1 (ascending global ranks)."""
     sub = capacity_of(c, h - 1)
     size = hi - lo
     k = min(size, tries * c)
@@ -255,10 +255,7 @@ def _root_page(score: np.ndarray, lo: int, hi: int, c: int, h: int, budget: int,
             keys += [] if left_end else up
         if t < len(chosen):
             keys.append(chosen[t])
-    keys = [lo + x for x in keys]
-    bounds = [lo - 1] + keys + [hi]
-    runs = [(bounds[t] + 1, bounds[t + 1]) for t in range(len(keys) + 1)]
-    return keys, runs
+    return [lo + x for x in keys]
 
 
 def _cut_positions(lc: np.ndarray, first: int, length: int, cuts: int, c: int, sub: int) -> list[int]:
