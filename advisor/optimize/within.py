@@ -42,28 +42,32 @@ def fewest_pages(n: int, c: int) -> int:
     return -(-n // c)
 
 
-def _gap_plan(gaps: list[int], c: int, sub: int, room: int):
+def _gap_plan(gaps: np.ndarray, c: int, sub: int, room: int):
     """Cuts per gap, keys moved up per gap, total root keys and pages below for given gaps.
 
     ``sub`` = cap(h-1), ``room`` = root slots left after the chosen keys. Returns
-    (cuts, moved, keys_used, pages_below) or None when the cuts alone overflow the root."""
-    cuts = [-(-(g + 1) // (sub + 1)) - 1 if g > 0 else 0 for g in gaps]
-    spare = room - sum(cuts)
+    (cuts, moved, keys_used, pages_below) as arrays and integers, or None when the cuts alone
+    overflow the root."""
+    gaps = np.asarray(gaps, dtype=np.int64)
+    cuts = np.where(gaps > 0, -(-(gaps + 1) // (sub + 1)) - 1, 0)
+    spare = room - int(cuts.sum())
     if spare < 0:
         return None
-    left = [g - e for g, e in zip(gaps, cuts, strict=True)]
-    pages = sum(-(-x // c) for x in left)
-    moved = [0] * len(gaps)
+    left = gaps - cuts
+    pages = int((-(-left // c)).sum())
+    moved = np.zeros(gaps.size, dtype=np.int64)
     # spare slots take the keys that save a page most cheaply: the remainder r = x mod c of a
-    # run (a whole page's c keys when the run is an exact multiple)
-    order = sorted((x % c or c, t) for t, x in enumerate(left) if x > 0)
-    for r, t in order:
-        if r > spare:
-            break
-        spare -= r
-        moved[t] = r
-        pages -= 1
-    return cuts, moved, room - spare, pages
+    # run (a whole page's c keys when the run is an exact multiple), smallest first (ties by
+    # position), as long as they fit
+    runs = np.nonzero(left > 0)[0]
+    rem = left[runs] % c
+    rem[rem == 0] = c
+    order = np.lexsort((runs, rem))
+    taken = int(np.searchsorted(np.cumsum(rem[order]), spare, side="right"))
+    pick = order[:taken]
+    moved[runs[pick]] = rem[pick]
+    used = int(rem[pick].sum())
+    return cuts, moved, room - (spare - used), pages - taken
 
 
 def within_budget_layout(
@@ -233,28 +237,22 @@ def _root_page(score: np.ndarray, lo: int, hi: int, c: int, h: int, budget: int,
     weights[fill] = np.maximum(weights[fill], np.finfo(np.float64).tiny)  # offered even when never looked up
     chosen = choose(weights, offered, size, c, min(sub, size + 1), budget)
     gaps = np.diff(np.concatenate([[-1], chosen, [size]])) - 1
-    gaps, chosen = gaps.tolist(), chosen.tolist()
-    plan = _gap_plan(gaps, c, sub, c - len(chosen))
+    plan = _gap_plan(gaps, c, sub, c - chosen.size)
     if plan is None or plan[3] + 1 > budget:  # excluded by the invariant (module docstring)
         raise AssertionError("range not completable within its budget")
     cuts, moved, _used, _pages = plan
     lc = np.concatenate([[0.0], np.cumsum(local)])
-    keys: list[int] = []
-    edges = [-1] + chosen + [size]
-    for t in range(len(gaps)):
-        a, g, r = edges[t] + 1, gaps[t], moved[t]  # gap t is keys a..a+g-1
-        if r or cuts[t]:
-            # keys moved up come from the end of the run with more lookup weight (either end lies
-            # next to a root key or the range's edge, so no new child run appears)
-            left_end = lc[a + r] - lc[a] >= lc[a + g] - lc[a + g - r] if r else True
-            up = list(range(a, a + r)) if left_end else list(range(a + g - r, a + g))
-            first = a + r if left_end else a
-            keys += up if left_end else []
-            if cuts[t]:
-                keys += _cut_positions(lc, first, g - r, cuts[t], c, sub)
-            keys += [] if left_end else up
-        if t < len(chosen):
-            keys.append(chosen[t])
+    keys: list[int] = chosen.tolist()
+    starts = np.concatenate([[0], chosen + 1])  # gap t is keys starts[t]..starts[t]+gaps[t]-1
+    for t in np.nonzero((moved > 0) | (cuts > 0))[0].tolist():
+        a, g, r = int(starts[t]), int(gaps[t]), int(moved[t])
+        # keys moved up come from the end of the run with more lookup weight (either end lies
+        # next to a root key or the range's edge, so no new child run appears)
+        left_end = lc[a + r] - lc[a] >= lc[a + g] - lc[a + g - r] if r else True
+        keys += range(a, a + r) if left_end else range(a + g - r, a + g)
+        if cuts[t]:
+            keys += _cut_positions(lc, a + r if left_end else a, g - r, int(cuts[t]), c, sub)
+    keys.sort()  # every gap's keys lie between its two root keys, so this is the page's order
     return [lo + x for x in keys]
 
 
