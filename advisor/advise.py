@@ -216,7 +216,7 @@ def analyse(wl: Workload, req: Request, on_plan: Callable[[int, str], None] | No
     pool_bytes = req.pool_bytes
     for model in models:
         one = replace(req, settings=replace(req.settings, model=model), pool_bytes=pool_bytes)
-        one = replace(one, truncate_separators=req.truncate_separators and one.settings.structure.has_balanced_shape)
+        one = replace(one, truncate_separators=req.truncate_separators and one.settings.structure.has_separators)
         parts.append(_analyse_structure(wl, one, reads, on_plan))
         # one pool in bytes for both structures
         pool_bytes = pool_bytes or default_pool_bytes([p.plan for p in parts[0].plans])

@@ -16,7 +16,7 @@ from .errors import InputInvalid, InputNotFound, LayoutInvalid, SettingInvalid
 from .histogram import Histogram
 from .layout import check_layout, evaluate
 from .leaf_search import evaluate_leaf_search
-from .sqlite_tree import index_layout
+from .sqlite_tree import index_layout, sqlite_page_size
 
 
 def parse_current(spec: str) -> tuple[Path, str]:
@@ -34,18 +34,10 @@ def current_figures(spec: str, hist: Histogram, table_keys: np.ndarray) -> dict:
     """The existing index's size and expected page reads on ``hist`` (the run's histogram over
     ``table_keys``, the table's distinct keys in ascending order)."""
     path, index = parse_current(spec)
-    try:
-        with path.open("rb") as f:
-            head = f.read(100)
-    except OSError as e:
-        raise InputInvalid(f"cannot read {path}: {e.strerror}") from None
-    if not head.startswith(b"SQLite format 3\x00"):
-        raise InputInvalid(f"{path} is not an SQLite database file")
-    page_size = int.from_bytes(head[16:18], "big")
-    page_size = 65536 if page_size == 1 else page_size
-    layout, keys, _pages = index_layout(path, index)
     if not np.issubdtype(np.asarray(table_keys).dtype, np.integer):
         raise InputInvalid("--current compares integer keys; the table's key column is not an integer type")
+    page_size = sqlite_page_size(path)
+    layout, keys, _pages = index_layout(path, index)
     if keys.size != table_keys.size or not np.array_equal(keys, np.asarray(table_keys, dtype=np.int64)):
         raise InputInvalid(
             f"the SQLite index {index!r} holds {keys.size:,} distinct keys and the table {table_keys.size:,}; "

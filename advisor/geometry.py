@@ -129,14 +129,12 @@ def geometry_for(
     child_pointer: int = DEFAULT_CHILD_POINTER,
     fill_factor: float = 1.0,
 ) -> Geometry:
-    """Check the figures and return the geometry (whether a key fits is the structure's check:
-    :meth:`advisor.structures.ClassicTree.capacity`)."""
+    """Check the figures and return the geometry (whether a key fits, and the fill factors, are
+    the structure's checks: :meth:`advisor.structures.ClassicTree.capacity`, ``structure_for``)."""
     if page_header < 0 or record_pointer < 0 or child_pointer < 0:
         raise SettingInvalid("page header and pointer sizes must not be negative")
     if key_bytes <= 0:
         raise SettingInvalid(f"key width must be positive, got {key_bytes:g}")
-    if not 0 < fill_factor <= 1:
-        raise SettingInvalid(f"fill factor must be in (0, 1], got {fill_factor:g}")
     g = Geometry(
         int(page_size), int(page_header), float(key_bytes), int(record_pointer), int(child_pointer), float(fill_factor)
     )

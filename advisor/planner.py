@@ -57,15 +57,24 @@ class Plan:
     method: str
     seconds: float
     dp_objective: float | None = None
-    model: str = "btree"
-    fanout: int = 0
+    structure: ClassicTree | BPlusTree = ClassicTree()  # the tree family, its fanout and even-split fills
     budget: Budget = Budget(None, None)
-    leaf_fill: float = 1.0  # the even split's fill factors (the bulk loader's)
-    internal_fill: float = 1.0
 
     @property
-    def structure(self) -> ClassicTree | BPlusTree:
-        return structure_for(self.model, self.fanout, self.leaf_fill, self.internal_fill)
+    def model(self) -> str:
+        return self.structure.name
+
+    @property
+    def fanout(self) -> int:
+        return self.structure.fanout
+
+    @property
+    def leaf_fill(self) -> float:
+        return self.structure.leaf_fill
+
+    @property
+    def internal_fill(self) -> float:
+        return self.structure.internal_fill
 
     @property
     def page_size(self) -> int | None:
@@ -157,11 +166,8 @@ def plan_capacity(
         method=method,
         seconds=time.perf_counter() - t0,
         dp_objective=dp_objective,
-        model=shape.name,
-        fanout=shape.fanout,
+        structure=shape,
         budget=budget,
-        leaf_fill=shape.leaf_fill,
-        internal_fill=shape.internal_fill,
     )
 
 

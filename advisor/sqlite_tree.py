@@ -55,9 +55,23 @@ def _first_integer(buf: bytes, pos: int) -> int:
     return int.from_bytes(buf[body : body + n], "big", signed=True)
 
 
+def sqlite_page_size(path: str | Path) -> int:
+    """The page size from the 100-byte file header (bytes 16-17; 1 means 65,536)."""
+    try:
+        with Path(path).open("rb") as f:
+            head = f.read(100)
+    except OSError as e:
+        raise InputInvalid(f"cannot read {path}: {e.strerror}") from None
+    if not head.startswith(b"SQLite format 3\x00") or len(head) < 100:
+        raise InputInvalid(f"{path} is not an SQLite database file")
+    size = struct.unpack(">H", head[16:18])[0]
+    return 65536 if size == 1 else size
+
+
 def read_index_pages(path: str | Path, index: str) -> tuple[int, dict[int, tuple[list[int], list[int]]]]:
     """(root page, {page number: (keys, child page numbers)}) of an SQLite index; leaves have no
     children; an interior page's children are its cells' left children then the right-most one."""
+    page_size = sqlite_page_size(path)
     con = sqlite3.connect(f"file:{path}?mode=ro", uri=True)
     try:
         row = con.execute("SELECT rootpage FROM sqlite_master WHERE type = 'index' AND name = ?", (index,)).fetchone()
@@ -66,8 +80,6 @@ def read_index_pages(path: str | Path, index: str) -> tuple[int, dict[int, tuple
     if row is None:
         raise InputInvalid(f"no index {index!r} in {path}")
     data = Path(path).read_bytes()
-    page_size = struct.unpack(">H", data[16:18])[0]
-    page_size = 65536 if page_size == 1 else page_size
     pages: dict[int, tuple[list[int], list[int]]] = {}
     todo = deque([row[0]])
     while todo:

@@ -77,6 +77,7 @@ class ClassicTree:
     fanout = 0
     export_suffix = ""  # file-name suffix when both structures are exported
     has_balanced_shape = False  # no one-depth-leaves variant to report
+    has_separators = False  # internal pages hold records, so there is no separator to shorten
 
     def capacity(self, g: Geometry) -> int:
         """Keys per page at this page geometry; a page that holds no key is an impossible setting."""
@@ -160,6 +161,7 @@ class BPlusTree:
     name = "bplus"
     export_suffix = "-bplus"
     has_balanced_shape = True
+    has_separators = True  # internal pages hold separators (--truncate-separators shortens them)
 
     def capacity(self, g: Geometry) -> int:
         """Leaf capacity L at this page geometry; it must hold an entry and a page two children."""
@@ -186,7 +188,8 @@ class BPlusTree:
         )
 
     def least(self, n: int, c: int, even: Layout) -> tuple[int, int, str]:
-        full = uniform_bplus(n, c, self.fanout).pages
+        packed = self.leaf_fill == self.internal_fill == 1.0  # the even split is already full
+        full = even.pages if packed else uniform_bplus(n, c, self.fanout).pages
         note = f"B+-tree plans keep at least the full even split's {full} pages (fewer is not built)"
         return full, bplus_height(n, c, self.fanout), note
 
@@ -253,10 +256,10 @@ def structure_for(
 ) -> ClassicTree | BPlusTree:
     """The structure a model name asks for ("btree", or "bplus" with its fanout), with the bulk
     loader's fill factors of its even split (internal pages default to the leaves' fill)."""
-    for fill in (leaf_fill, internal_fill if internal_fill is not None else leaf_fill):
+    inner = leaf_fill if internal_fill is None else internal_fill
+    for fill in (leaf_fill, inner):
         if not 0 < fill <= 1:
             raise SettingInvalid(f"fill factor must be in (0, 1], got {fill:g}")
-    inner = leaf_fill if internal_fill is None else internal_fill
     if model == "bplus":
         return BPlusTree(fanout, leaf_fill, inner)
     return ClassicTree(leaf_fill, inner)

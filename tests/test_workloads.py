@@ -54,23 +54,13 @@ def _rows(sql_file: str) -> list[tuple]:
         con.close()
 
 
+def _invoke(db, *args):
+    """``advisor recommend`` on the invented catalogue's key column."""
+    return runner.invoke(app, ["recommend", str(db), "--table", "packets", "--key", "packet_no", *args])
+
+
 def _recommend(db, *args):
-    res = runner.invoke(
-        app,
-        [
-            "recommend",
-            str(db),
-            "--table",
-            "packets",
-            "--key",
-            "packet_no",
-            "--keys-per-page",
-            "4",
-            "--json",
-            "--no-frontier",
-            *args,
-        ],
-    )
+    res = _invoke(db, "--keys-per-page", "4", "--json", "--no-frontier", *args)
     assert res.exit_code == 0, res.stderr
     return json.loads(res.stdout)
 
@@ -126,38 +116,10 @@ def test_log_sql_that_writes_is_refused_and_changes_nothing(catalogue, tmp_path)
     before = _digest(catalogue)
     bad = tmp_path / "bad.sql"
     bad.write_text("DELETE FROM packets")
-    res = runner.invoke(
-        app, ["recommend", str(catalogue), "--table", "packets", "--key", "packet_no", "--log-sql", str(bad)]
-    )
+    res = _invoke(catalogue, "--log-sql", str(bad))
     assert res.exit_code == 4 and "--log-sql" in res.stderr and len(res.stderr.strip().splitlines()) == 1
-    missing = runner.invoke(
-        app,
-        [
-            "recommend",
-            str(catalogue),
-            "--table",
-            "packets",
-            "--key",
-            "packet_no",
-            "--log-sql",
-            str(tmp_path / "none.sql"),
-        ],
-    )
+    missing = _invoke(catalogue, "--log-sql", str(tmp_path / "none.sql"))
     assert missing.exit_code == 3
-    both = runner.invoke(
-        app,
-        [
-            "recommend",
-            str(catalogue),
-            "--table",
-            "packets",
-            "--key",
-            "packet_no",
-            "--log",
-            "counts",
-            "--log-sql",
-            "counts/lookups.sql",
-        ],
-    )
+    both = _invoke(catalogue, "--log", "counts", "--log-sql", "counts/lookups.sql")
     assert both.exit_code == 5
     assert _digest(catalogue) == before

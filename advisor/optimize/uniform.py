@@ -19,15 +19,21 @@ from ..layout import Layout, LayoutBuilder
 from .topdown import build_top_down
 
 
+def reach(h: int, c: int, leaf_keys: int | None = None) -> int:
+    """Most keys a B-tree of h levels holds when a leaf holds ``leaf_keys`` (default c) and a
+    page above holds c keys and c + 1 children: reach(1) = leaf_keys, reach(h) = (c + 1)
+    (reach(h - 1) + 1) - 1; (c+1)^h - 1 when leaf_keys = c."""
+    r = 0
+    for level in range(1, h + 1):
+        r = (c if leaf_keys is None else leaf_keys) if level == 1 else (r + 1) * (c + 1) - 1
+    return r
+
+
 def min_height(n: int, c: int, leaf_keys: int | None = None) -> int:
-    """Fewest levels a B-tree needs for n keys: least h with reach(h) >= n, where a leaf holds
-    ``leaf_keys`` (default c) and a page above holds c keys and c + 1 children:
-    reach(1) = leaf_keys, reach(h) = (c + 1) reach(h - 1) + c; (c+1)^h - 1 when leaf_keys = c."""
-    leaf = c if leaf_keys is None else leaf_keys
-    h, reach = 0, 0
-    while reach < n:
+    """Fewest levels a B-tree needs for n keys: least h with reach(h) >= n."""
+    h = 0
+    while reach(h, c, leaf_keys) < n:
         h += 1
-        reach = leaf if h == 1 else (reach + 1) * (c + 1) - 1
     return h
 
 
@@ -39,15 +45,9 @@ def uniform_layout(n: int, c: int, leaf_keys: int | None = None, internal_keys: 
     leaf = c if leaf_keys is None else max(1, min(c, leaf_keys))
     inner = c if internal_keys is None else max(1, min(c, internal_keys))
 
-    def reach(h: int) -> int:
-        r = 0
-        for level in range(1, h + 1):
-            r = leaf if level == 1 else (r + 1) * (inner + 1) - 1
-        return r
-
     def even(lo: int, hi: int, _state) -> tuple[np.ndarray, None]:
         size = hi - lo
-        sub = reach(min_height(size, inner, leaf) - 1) + 1  # a child of height h-1 holds sub - 1 keys
+        sub = reach(min_height(size, inner, leaf) - 1, inner, leaf) + 1  # a child of height h-1 holds sub - 1 keys
         m = -(-(size + 1) // sub)
         rest = size - (m - 1)
         runs = np.full(m, rest // m, dtype=np.int64)
