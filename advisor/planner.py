@@ -109,9 +109,10 @@ class PlanOptions:
     fanout: int = 0  # bplus with a direct capacity: children per internal page
     check: bool = True
     budget: BudgetSpec = field(default_factory=BudgetSpec)  # default: the even split's pages and height
-    within_polish_ops: float = 1e9  # estimated work of exact re-solves within the budget (the estimate runs
-    # 10-50x above the measured time: n = 1,000 took 0.2 s), and the most one subtree may take:
-    within_subtree_ops: float = 5e8
+    within_polish_ops: float = 4e8  # work of exact re-solves of subtrees within the budget (about 1.2e8
+    # per second of this machine kind, see constrained.WITHIN_OPS_PER_SECOND), and the most one may take:
+    within_subtree_ops: float = 2e8
+    within_recut_ops: float = 6e8  # ... of exact re-cuts of page-key windows within the budget (classic)
     quick: bool = False  # a frontier point: large tables skip the slow unconstrained builders
     leaf_fill: float = 1.0  # share of each even-split leaf page a bulk loader fills (the baseline)
     internal_fill: float | None = None  # ... and of each internal page (default: the leaves' fill)
@@ -265,6 +266,13 @@ def _within(shape, fit: Histogram, c: int, uni: Layout, budget: Budget, opts: Pl
         best = _improve(
             best, ranked, uni, fit, step, "exact re-solve of subtrees within the budget", " + exact subtrees", refine
         )
+    if opts.within_recut_ops > 0 and not quick and best[2] is not uni:
+        step("exact re-cuts of page keys within the budget")
+        cut = shape.recut_within(best[2], fit, budget, opts.within_recut_ops)
+        if cut is not None and budget.allows(cut):
+            v = evaluate(cut, fit).expected_page_reads
+            if v < best[0]:
+                best = (v, best[1] + " + exact re-cuts", cut)
     return best[2], best[1], False, None
 
 

@@ -43,8 +43,13 @@ from .optimize.bplus import (
 from .optimize.bplus_bounds import bplus_level_bound, bplus_window_bound
 from .optimize.bplus_constrained import bplus_constrained_work, solve_bplus_within
 from .optimize.bplus_within import bplus_within_layout, hot_leaf_candidates
-from .optimize.constrained import ConstrainedResult, constrained_bytes, constrained_work, solve_within
-from .optimize.exact import FLOAT_OPS_PER_SECOND
+from .optimize.constrained import (
+    WITHIN_OPS_PER_SECOND,
+    ConstrainedResult,
+    constrained_bytes,
+    constrained_work,
+    solve_within,
+)
 from .optimize.recut import recut
 from .optimize.refine import EVALUATIONS, polish_within
 from .optimize.uniform import min_height
@@ -107,7 +112,7 @@ class ClassicTree:
         return solve_exact(fit, c)
 
     def within_exact_cost(self, n: int, c: int, height: int) -> tuple[float, float, bool]:
-        seconds = constrained_work(n, c, height) * EVALUATIONS / FLOAT_OPS_PER_SECOND
+        seconds = constrained_work(n, c, height) * EVALUATIONS / WITHIN_OPS_PER_SECOND
         return seconds, constrained_bytes(n, c, height), True
 
     def solve_within(self, fit: Histogram, c: int, budget: Budget, height: int) -> ConstrainedResult:
@@ -148,6 +153,10 @@ class ClassicTree:
     def recut(self, layout: Layout, fit: Histogram, ops: float):
         """Exact re-cuts of page keys (None: this family has none)."""
         return recut(layout, fit, ops)
+
+    def recut_within(self, layout: Layout, fit: Histogram, budget: Budget, ops: float):
+        """Exact re-cuts of page keys that keep within the budget (None: this family has none)."""
+        return recut(layout, fit, ops, max_window_ops=ops / 2, max_pages=budget.max_pages, max_height=budget.max_height)
 
 
 @dataclass(frozen=True)
@@ -239,6 +248,9 @@ class BPlusTree:
         return None  # the budgeted re-solve of subtrees is classic-only so far
 
     def recut(self, layout: Layout, fit: Histogram, ops: float):
+        return None
+
+    def recut_within(self, layout: Layout, fit: Histogram, budget: Budget, ops: float):
         return None
 
 

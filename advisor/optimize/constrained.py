@@ -27,16 +27,24 @@ dual bound; the plan is proven optimal when that tree meets the bound.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 
 from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
-from .exact import ROW_BLOCK, ForestTables, exact_work, forest_chain, forest_roots, length_limits, row_min_of_sums
+from .exact import ROW_BLOCK, ForestTables, forest_chain, forest_roots, length_limits, row_min_of_sums
 from .topdown import build_top_down
 from .uniform import min_height
 
+
+def capacity_of(c: int, h: int) -> int:
+    """Most keys a classic B-tree of capacity c and height h holds."""
+    return (c + 1) ** h - 1 if h > 0 else 0
+
+
 BISECTION_STEPS = 14
+WITHIN_OPS_PER_SECOND = 1.2e8  # of constrained_work, this machine kind (0.7-2.4e8 measured, n = 500-2,000)
 
 
 @dataclass(frozen=True)
@@ -48,9 +56,29 @@ class ConstrainedResult:
     evaluations: int  # DP runs spent
 
 
-def constrained_work(n: int, c: int, height: int) -> float:
-    """Element operations of one DP run (all levels) at n keys; the bisection runs several."""
-    return exact_work(n, c)[0] * max(1, height - 1)
+def forest_reach(split: dict, top: int, sub_keys: int, n: int) -> dict[int, int]:
+    """Most keys a forest of s roots spans over subtrees of at most ``sub_keys`` keys, for every
+    forest size the chain ``split`` (built for ``top``) uses."""
+    sizes = set(split) | {0, top} | {x for ab in split.values() for x in ab}
+    return {s: min(n, s + (s + 1) * sub_keys) for s in sizes}
+
+
+@lru_cache(maxsize=4096)
+def constrained_work(n: int, c: int, height: int, top: int | None = None) -> float:
+    """Element operations of one DP run at n keys, the same count as the loops of
+    :class:`_Levels` (banded lower levels, the prefix-only top); the bisection runs several."""
+    split = forest_chain(c)
+    ops = float((c if top is None else top) * (n + 1) ** 2 + 4 * (n + 1) ** 2)  # top page, tables
+    for h in range(2, height):
+        sub = capacity_of(c, h - 1)
+        longest = length_limits(split, (c,), n)
+        reach = forest_reach(split, c, sub, n)
+        for s, (a, b) in split.items():
+            L = np.arange(max(s, 1), min(longest[s], reach[s]) + 1, dtype=np.float64)
+            width = np.minimum(L - 1 - b, reach[a]) - np.maximum(a, L - 1 - reach[b]) + 1
+            ops += float(((n - L + 1) * np.maximum(width, 0)).sum())
+        ops += 3 * (n + 1) ** 2  # the level's tables filled
+    return ops
 
 
 def constrained_bytes(n: int, c: int, height: int) -> float:
@@ -59,11 +87,19 @@ def constrained_bytes(n: int, c: int, height: int) -> float:
 
 
 class _Levels:
-    """C_h for h = 1..height and the forest tables of every level, for one price per page."""
+    """C_h for h = 1..height - 1 with their forest tables, and the top page's choice, for one
+    price per page.
 
-    def __init__(self, p: np.ndarray, q: np.ndarray, c: int, height: int, lam: float) -> None:
+    The top level is needed for the whole range only, so it is a prefix recurrence
+    T(j, s) = min_r T(r - 1, s - 1) + C_{height-1}(r, j) (the textbook form of the forest
+    recurrence on row 0): O(top n^2) instead of the O(n^3 log c) of a full level.
+    ``top`` = w < c asks for the tree whose top page holds exactly w keys (the piece a budgeted
+    re-cut of w page keys needs)."""
+
+    def __init__(self, p: np.ndarray, q: np.ndarray, c: int, height: int, lam: float, top: int | None = None) -> None:
         n = p.size
-        self.n, self.c = n, c
+        self.n, self.c, self.height = n, c, height
+        self.top = c if top is None else top
         P = np.concatenate([[0.0], np.cumsum(p)])
         Q = np.concatenate([[0.0], np.cumsum(q)])
         W = np.full((n + 1, n + 1), np.inf)  # W[i, L] = weight of keys i+1..i+L and gaps i..i+L
@@ -71,25 +107,50 @@ class _Levels:
             i = np.arange(n - L + 1)
             W[i, L] = (P[i + L] - P[i]) + (Q[i + L + 1] - Q[i])
         self.split = forest_chain(c)
-        self.levels: list[tuple[dict, dict]] = []  # per h >= 2: (start, end) forest tables over C_{h-1}
+        self.levels: list[tuple[dict, dict]] = []  # per 2 <= h < height: forest tables over C_{h-1}
         base = np.full((n + 1, n + 1), np.inf)
-        base[:, 0] = 0.0
         short = np.arange(n + 1) <= c
         base[:, short] = W[:, short] + lam
         base[:, 0] = 0.0
-        self.C = [base]  # C[h - 1] = C_h as start-indexed [i, L]
-        for _h in range(2, height + 1):
-            start, end = self._forests(self.C[-1])
-            Ch = base.copy()
-            Ch[:, c + 1 :] = W[:, c + 1 :] + lam + start[c][:, c + 1 :]
+        C = base  # C_h as start-indexed [i, L]
+        for h in range(2, height):
+            start, end = self._forests(C, self.split, c, capacity_of(c, h - 1))
+            C = base.copy()
+            C[:, c + 1 :] = W[:, c + 1 :] + lam + start[c][:, c + 1 :]
             self.levels.append((start, end))
-            self.C.append(Ch)
+        self._top_page(C, float(W[0, n]) + lam, base[0, n])
 
-    def _forests(self, C: np.ndarray) -> tuple[dict, dict]:
-        """Forest tables G(., ., s) over subtrees with costs C (start- and end-indexed)."""
-        n, c, split = self.n, self.c, self.split
-        longest = length_limits(split, (c,), n)
-        lefts = {a for a, _ in split.values()} | {0, c}
+    def _top_page(self, C: np.ndarray, page: float, single: float) -> None:
+        """T(j, s) over subtrees of cost C = C_{height-1}, and the value of the whole tree."""
+        n, w = self.n, self.top
+        self._T = None
+        if self.height == 1 or (w == self.c and n <= self.c):
+            self._value = float(single)
+            return
+        by_end = np.full((n + 1, n + 1), np.inf)  # by_end[j, r] = C(r, j) for r <= j, else inf
+        for r in range(n + 1):
+            by_end[r:, r] = C[r, : n + 1 - r]
+        self._by_end = by_end
+        T = [by_end[:, 0].copy()]  # T[k][j] = T(j, k); T(j, 0) = C(0, j)
+        for _k in range(1, w + 1):  # root key r (1-based, r <= j) closes the k-th subtree
+            T.append((T[-1][None, :-1] + by_end[:, 1:]).min(axis=1))
+        self._T = T
+        self._value = page + float(T[w][n])
+
+    def _forests(self, C: np.ndarray, split: dict, top: int, sub_keys: int) -> tuple[dict, dict]:
+        """Forest tables G(., ., s) over subtrees with costs C (start- and end-indexed), for
+        forests of ``top`` roots and the sizes ``split`` builds them from.
+
+        Subtrees hold at most ``sub_keys`` keys (the capacity of their height), so a forest of
+        s roots spans at most s + (s + 1) sub_keys keys: longer ranges and split positions
+        whose parts overflow stay infinite and are skipped (exact, and most of the work of the
+        lower levels)."""
+        n = self.n
+        longest = length_limits(split, (top,), n)
+        reach = forest_reach(split, top, sub_keys, n)
+        for s in split:
+            longest[s] = min(longest[s], reach[s])
+        lefts = {a for a, _ in split.values()} | {0, top}
         rights = {b for _, b in split.values()} | {0}
         start = {s: np.full((n + 1, n + 1), np.inf) for s in lefts}
         end = {s: np.full((n + 1, n + 1), np.inf) for s in rights}
@@ -108,7 +169,9 @@ class _Levels:
                 if L > longest[s]:
                     continue
                 a, b = split[s]
-                lo, hi = a, L - 1 - b
+                lo, hi = max(a, L - 1 - reach[b]), min(L - 1 - b, reach[a])  # left part lengths
+                if lo > hi:
+                    continue
                 left = start[a][:m, lo : hi + 1]
                 right = end[b][L:, n - L + 1 + lo : n - L + 2 + hi]
                 row_min_of_sums(left, right, buf, g[:m])
@@ -119,17 +182,31 @@ class _Levels:
         return start, end
 
     def value(self, height: int) -> float:
-        return float(self.C[height - 1][0, self.n])
+        return self._value
+
+    def _top_keys(self) -> np.ndarray:
+        """0-based root keys of the top page, walking T back from (n, top): only the rows on
+        the path are minimised again, so no argmin table is kept."""
+        keys, j = [], self.n
+        for k in range(self.top, 0, -1):
+            r = 1 + int(np.argmin(self._T[k - 1][:-1] + self._by_end[j, 1:]))
+            keys.append(r - 1)
+            j = r - 1
+        return np.asarray(keys[::-1], dtype=np.int64)
 
     def rebuild(self, height: int) -> Layout:
         n, c = self.n, self.c
 
         def roots(i: int, j: int, h: int) -> tuple[np.ndarray, int]:
+            if h == height:
+                return self._top_keys(), h - 1
             start, end = self.levels[h - 2]
             out: list[int] = []
             forest_roots(ForestTables(self.split, start, end), i, j, c, out)
             return np.asarray(out) - 1, h - 1
 
+        if self._T is None:
+            return _one_page(n, c)
         return build_top_down(n, c, roots, height)
 
 
@@ -159,6 +236,22 @@ def solve_within(
         return lv.rebuild(height), lv.value(height)
 
     return price_bisection(levels, max_pages, height, n, total, steps)
+
+
+def solve_window_within(hist: Histogram, c: int, top: int, max_pages: int | None, height: int) -> ConstrainedResult:
+    """Best piece over ``hist``'s keys whose top page holds exactly ``top`` keys, at most
+    ``height`` levels (the top included) and ``max_pages`` pages (the top included), by the same
+    price bisection; the piece a budgeted re-cut of ``top`` neighbouring page keys swaps in."""
+    if not 1 <= top <= min(c, hist.n - 1) or hist.n <= c or height < 2:
+        raise ValueError(f"a window of {top} keys needs more than c = {c} keys and two levels")
+    if top + (top + 1) * ((c + 1) ** (height - 1) - 1) < hist.n:
+        raise ValueError(f"{hist.n} keys do not fit under {top} top keys in {height} levels")
+
+    def levels(lam: float) -> tuple[Layout, float]:
+        lv = _Levels(hist.p, hist.q, c, height, lam, top)
+        return lv.rebuild(height), lv.value(height)
+
+    return price_bisection(levels, max_pages, height, hist.n, hist.total)
 
 
 def price_bisection(

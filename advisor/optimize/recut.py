@@ -21,7 +21,11 @@ import numpy as np
 
 from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
+from .constrained import BISECTION_STEPS, constrained_work, solve_window_within
 from .exact import exact_work, solve_exact
+from .uniform import min_height
+
+EVALUATIONS = BISECTION_STEPS // 2 + 2  # typical DP runs of one price bisection (measured 1-8)
 
 
 @dataclass
@@ -39,6 +43,8 @@ def recut(
     width: int = 4,
     max_window_ops: float = 1.2e9,
     passes: int = 4,
+    max_pages: int | None = None,
+    max_height: int | None = None,
 ) -> Layout:
     """Improve a classic B-tree layout by exact re-cuts of windows of up to ``width`` keys.
 
@@ -47,26 +53,33 @@ def recut(
     keys at c = 5).
 
     Passes repeat while they gain: a deeper page improved in one pass changes what its
-    parent's windows trade off in the next."""
+    parent's windows trade off in the next.
+
+    With ``max_pages`` / ``max_height`` every piece is the best one within the levels left
+    below its page and the pages its old subtrees used plus the layout's spare pages, so the
+    result stays within both (the price-per-page DP of :func:`solve_window_within`)."""
     c, n = layout.capacity, layout.n_keys
     if layout.structure != "btree" or layout.pages <= 1 or n <= c:
         return layout
-    cap = _largest_affordable(c, max_window_ops)  # windows over more keys are skipped unsolved
-    root = _to_nodes(layout)
-    if not _root_window_fits(root, n, cap):
+    pages_left = None if max_pages is None else [max_pages - layout.pages]
+    limited = max_pages is not None or max_height is not None
+    # windows over more keys than ``cap`` are skipped unsolved
+    cap = _largest_affordable(c, max_window_ops, limited, max_height or 2)
+    if not _root_window_fits(layout.keys_of(0).tolist(), n, cap):
         # most lookups are decided at the top; when the root's one-key windows mostly are too
         # large for the exact solver, the deeper re-cuts alone were measured to gain about 0.1%
         # (1M keys, in a bench_scale run) for several seconds of work
         return layout
+    root = _to_nodes(layout)
     P = np.concatenate([[0.0], np.cumsum(hist.p)])
     Q = np.concatenate([[0.0], np.cumsum(hist.q)])
 
     def weight(lo: int, hi: int) -> float:  # keys lo..hi-1 and gaps lo..hi
         return float(P[hi] - P[lo] + Q[hi + 1] - Q[lo])
 
-    budget = [ops_budget]
+    job = _Pass(hist, weight, c, width, cap, [ops_budget], max_height, pages_left)
     for _ in range(passes):
-        if not _one_pass(root, hist, weight, c, n, budget, width, cap) or budget[0] <= 0:
+        if not _one_pass(root, job, n) or job.budget[0] <= 0:
             break
         root = _to_nodes(_to_layout(root, n, c))  # fresh nodes: every page may be re-cut again
     return _to_layout(root, n, c)
@@ -74,7 +87,11 @@ def recut(
 
 @dataclass
 class _Pass:
-    """What one pass of re-cuts shares: the weights, capacity, window limits and work left."""
+    """What one pass of re-cuts shares: the weights, capacity, window limits and work left.
+
+    Without limits a window's piece is the unconstrained optimum; with ``max_height`` or
+    ``pages_left`` (spare pages of the whole layout, as a one-element list) it is the best piece
+    within the levels left below the page and the old subtrees' pages plus the spare ones."""
 
     hist: Histogram
     weight: object  # weight(lo, hi) of keys lo..hi-1 and gaps lo..hi
@@ -82,30 +99,58 @@ class _Pass:
     width: int
     cap: int
     budget: list  # [work left], spent by every window solved
+    max_height: int | None = None
+    pages_left: list | None = None
+
+    @property
+    def limited(self) -> bool:
+        return self.max_height is not None or self.pages_left is not None
+
+    def work(self, size: int, depth: int) -> float:
+        if not self.limited:
+            return _window_work(size, self.c)
+        return constrained_work(size, self.c, self._levels(depth, size)) * EVALUATIONS
+
+    def _levels(self, depth: int, size: int) -> int:
+        """Levels a piece may use, its top included (no height limit: two more than it needs,
+        always room for any w >= 1 top keys)."""
+        return self.max_height - depth + 1 if self.max_height is not None else min_height(size, self.c) + 2
+
+    def piece(self, begin: int, end: int, w: int, old: list, depth: int) -> tuple[_Node, int] | None:
+        """The best piece on keys begin..end-1 under w top keys, and the pages it adds."""
+        sub = Histogram(self.hist.p[begin:end], self.hist.q[begin : end + 1])
+        if not self.limited:
+            return _to_nodes(solve_exact(sub, self.c, root_keys=w).layout, shift=begin, exact=True), 0
+        had = sum(_subtree_pages(k) for k in old if k is not None)
+        allowance = None if self.pages_left is None else had + self.pages_left[0] + 1
+        res = solve_window_within(sub, self.c, w, allowance, self._levels(depth, end - begin))
+        return _to_nodes(res.layout, shift=begin, exact=res.proven), res.layout.pages - 1 - had
+
+    def taken(self, extra_pages: int) -> None:
+        if self.pages_left is not None:
+            self.pages_left[0] -= extra_pages
 
 
-def _one_pass(
-    root: _Node, hist: Histogram, weight, c: int, n: int, budget: list, width: int, cap: int, sweeps: int = 3
-) -> bool:
+def _one_pass(root: _Node, job: _Pass, n: int, sweeps: int = 3) -> bool:
     """One top-down pass of sliding re-cuts, heaviest pages first; True when any was taken."""
-    job = _Pass(hist, weight, c, width, cap, budget)
+    weight, budget = job.weight, job.budget
     improved = False
-    bounds = {id(root): (0, n)}  # key range [lo, hi) of each node still to visit
+    bounds = {id(root): (0, n, 1)}  # key range [lo, hi) and depth of each node still to visit
     heap = [(-weight(0, n), 0, root)]
     order = 1
     while heap and budget[0] > 0:
         _, _, node = heapq.heappop(heap)
-        lo, hi = bounds.pop(id(node))
+        lo, hi, depth = bounds.pop(id(node))
         tried: set[tuple[int, int, int]] = set()  # windows solved without gain: same range, same answer
         for _ in range(sweeps):
-            if not _sweep(node, lo, hi, job, tried):
+            if not _sweep(node, lo, hi, depth, job, tried):
                 break
             improved = True
         for i, kid in enumerate(node.kids):
             if kid is not None and not kid.exact and kid.keys and len(kid.kids) > 1 and any(kid.kids):
                 klo = node.keys[i - 1] + 1 if i > 0 else lo
                 khi = node.keys[i] if i < len(node.keys) else hi
-                bounds[id(kid)] = (klo, khi)
+                bounds[id(kid)] = (klo, khi, depth + 1)
                 heapq.heappush(heap, (-weight(klo, khi), order, kid))
                 order += 1
     return improved
@@ -122,7 +167,7 @@ def _window_width(node: _Node, lo: int, hi: int, width: int, cap: int) -> tuple[
     return w, sizes
 
 
-def _sweep(node: _Node, lo: int, hi: int, job: _Pass, tried: set) -> bool:
+def _sweep(node: _Node, lo: int, hi: int, depth: int, job: _Pass, tried: set) -> bool:
     """Slide the window over one page's keys once, taking every exact re-cut that gains."""
     c, cap, weight = job.c, job.cap, job.weight
     w, sizes = _window_width(node, lo, hi, job.width, cap)
@@ -133,15 +178,16 @@ def _sweep(node: _Node, lo: int, hi: int, job: _Pass, tried: set) -> bool:
         size = end - begin  # recomputed: a re-cut earlier in this sweep may have moved keys
         if size <= c or size > cap or (begin, end, w) in tried:
             continue
-        work = _window_work(size, c)
+        work = job.work(size, depth)
         if work > job.budget[0]:
             continue
         job.budget[0] -= work
-        old = sum(_subtree_cost(k, weight) for k in node.kids[a : a + w + 1] if k is not None)
-        sub = Histogram(job.hist.p[begin:end], job.hist.q[begin : end + 1])
-        piece = _to_nodes(solve_exact(sub, c, root_keys=w).layout, shift=begin, exact=True)
+        old_kids = node.kids[a : a + w + 1]
+        old = sum(_subtree_cost(k, weight) for k in old_kids if k is not None)
+        piece, extra_pages = job.piece(begin, end, w, old_kids, depth)
         new = sum(_subtree_cost(k, weight) for k in piece.kids if k is not None)
         if new < old - 1e-9 * max(old, 1.0):
+            job.taken(extra_pages)
             node.keys[a : a + w] = piece.keys
             node.kids[a : a + w + 1] = piece.kids
             node.cost = None
@@ -151,10 +197,10 @@ def _sweep(node: _Node, lo: int, hi: int, job: _Pass, tried: set) -> bool:
     return changed
 
 
-def _root_window_fits(root: _Node, n: int, cap: int) -> bool:
+def _root_window_fits(root_keys: list[int], n: int, cap: int) -> bool:
     """True when the root's affordable one-key windows cover at least half of the keys below
     it (a few small windows inside a hot cluster are not enough: measured no gain at 1M keys)."""
-    edges = np.array([-1] + root.keys + [n])
+    edges = np.array([-1] + root_keys + [n])
     kids = np.diff(edges) - 1  # keys in each child range
     fits = kids[:-1] + kids[1:] + 1 <= cap  # window a: child ranges a and a + 1 and key a
     covered = np.zeros(kids.size, dtype=bool)
@@ -163,12 +209,13 @@ def _root_window_fits(root: _Node, n: int, cap: int) -> bool:
     return 2 * int(kids[covered].sum()) >= int(kids.sum())
 
 
-def _largest_affordable(c: int, max_ops: float) -> int:
+def _largest_affordable(c: int, max_ops: float, limited: bool = False, height: int = 2) -> int:
     """Largest range the exact solver handles within ``max_ops`` (binary search on its work)."""
     lo, hi = c, 1 << 20
     while lo < hi:
         mid = (lo + hi + 1) // 2
-        if _window_work(mid, c) <= max_ops:
+        work = constrained_work(mid, c, height) * EVALUATIONS if limited else _window_work(mid, c)
+        if work <= max_ops:
             lo = mid
         else:
             hi = mid - 1
@@ -178,6 +225,10 @@ def _largest_affordable(c: int, max_ops: float) -> int:
 def _window_work(size: int, c: int) -> float:
     """Exact DP work of one window of ``size`` keys: the w-key top adds at most half again."""
     return exact_work(size, c)[0] * 1.5
+
+
+def _subtree_pages(node: _Node) -> int:
+    return 1 + sum(_subtree_pages(k) for k in node.kids if k is not None)
 
 
 def _subtree_cost(node: _Node, weight) -> float:
