@@ -142,6 +142,11 @@ class ClassicTree:
                 f"evenly strided full pages first, then hot keys, within the budget ({h} levels)",
                 lambda h=h: within_budget_layout(fit, c, pages, h, 2, fill_first=True),
             )
+            if not quick:
+                yield (
+                    f"a quarter of each root for hot keys, then even cuts, within the budget ({h} levels)",
+                    lambda h=h: within_budget_layout(fit, c, pages, h, 2, hot_share=0.25),
+                )
 
     def bounds(self, hist: Histogram, c: int) -> dict[str, float]:
         return lower_bounds(hist, c)

@@ -71,13 +71,22 @@ def _gap_plan(gaps: np.ndarray, c: int, sub: int, room: int):
 
 
 def within_budget_layout(
-    hist: Histogram, c: int, max_pages: int, max_height: int, tries: int = 2, fill_first: bool = False
+    hist: Histogram,
+    c: int,
+    max_pages: int,
+    max_height: int,
+    tries: int = 2,
+    fill_first: bool = False,
+    hot_share: float = 1.0,
 ) -> Layout:
     """A layout of at most ``max_pages`` pages and ``max_height`` levels that lifts hot keys.
 
     Requires ``max_pages >= ceil(n / c)`` and ``max_height >= min_height(n, c)`` (always
     enough, see the module docstring). ``tries`` x c of each range's hottest keys are offered
-    to its root page.
+    to its root page. ``hot_share`` < 1 offers only that share of a root's slots to hot keys
+    first, then cuts that split the range's lookup weight evenly: where hot keys sit side by
+    side, a root full of them leaves few non-empty children and the next-hottest keys two levels
+    down; cuts around the cluster give them pages of their own one level down.
     """
     n = hist.n
     b = LayoutBuilder(n, c)
@@ -93,7 +102,7 @@ def within_budget_layout(
         if hi - lo <= c:
             b.add(np.arange(lo, hi), parent, slot)
             continue
-        keys = np.asarray(_root_page(score, lo, hi, c, h, budget, tries, fill_first), dtype=np.int64)
+        keys = np.asarray(_root_page(score, lo, hi, c, h, budget, tries, fill_first, hot_share), dtype=np.int64)
         page = b.add(keys, parent, slot)
         starts = np.concatenate([[lo], keys + 1])  # child run t is keys starts[t]..ends[t]-1
         ends = np.concatenate([keys, [hi]])
@@ -221,7 +230,9 @@ def _aligned_fillers(size: int, c: int, sub: int) -> np.ndarray:
     return np.arange(stride - 1, size, stride, dtype=np.int64)[:c]
 
 
-def _root_page(score: np.ndarray, lo: int, hi: int, c: int, h: int, budget: int, tries: int, fill_first: bool = False):
+def _root_page(
+    score: np.ndarray, lo: int, hi: int, c: int, h: int, budget: int, tries: int, fill_first=False, hot_share=1.0
+):
     """Root keys of range lo..hi-1 (ascending global ranks)."""
     sub = capacity_of(c, h - 1)
     size = hi - lo
@@ -232,16 +243,25 @@ def _root_page(score: np.ndarray, lo: int, hi: int, c: int, h: int, budget: int,
     fill = _aligned_fillers(size, c, sub)
     fill = fill[~np.isin(fill, top)]
     hot = top[local[top] > 0]
-    offered = np.concatenate([fill, hot] if fill_first else [hot, fill])
+    lc = np.concatenate([[0.0], np.cumsum(local)])
+    if hot_share < 1.0 and size > 2 * c:
+        first = int(hot_share * c)
+        even = np.asarray(
+            _cut_positions(lc, 0, size, min(c - first, size // (c + 1)), c, min(sub, size)), dtype=np.int64
+        )
+        even = even[(even >= 0) & (even < size)]
+        offered = np.concatenate([hot[:first], even, hot[first:], fill])
+        offered = offered[np.sort(np.unique(offered, return_index=True)[1])]  # first offer of each key
+    else:
+        offered = np.concatenate([fill, hot] if fill_first else [hot, fill])
     weights = local.copy()
-    weights[fill] = np.maximum(weights[fill], np.finfo(np.float64).tiny)  # offered even when never looked up
+    weights[offered] = np.maximum(weights[offered], np.finfo(np.float64).tiny)  # offered even when never looked up
     chosen = choose(weights, offered, size, c, min(sub, size + 1), budget)
     gaps = np.diff(np.concatenate([[-1], chosen, [size]])) - 1
     plan = _gap_plan(gaps, c, sub, c - chosen.size)
     if plan is None or plan[3] + 1 > budget:  # excluded by the invariant (module docstring)
         raise AssertionError("range not completable within its budget")
     cuts, moved, _used, _pages = plan
-    lc = np.concatenate([[0.0], np.cumsum(local)])
     keys: list[int] = chosen.tolist()
     starts = np.concatenate([[0], chosen + 1])  # gap t is keys starts[t]..starts[t]+gaps[t]-1
     for t in np.nonzero((moved > 0) | (cuts > 0))[0].tolist():
