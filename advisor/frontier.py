@@ -34,7 +34,6 @@ def frontier(plan: Plan, hist: Histogram, options: PlanOptions, points=FRONTIER_
                 budget=budget_spec,
                 exact_seconds=options.exact_seconds / len(points),
                 within_polish_ops=options.within_polish_ops / len(points),
-                within_recut_ops=options.within_recut_ops / len(points),
                 quick=True,
             )
             point = plan_capacity(hist, plan.keys_per_page, plan.geometry, share, known_bounds=plan.bounds)
