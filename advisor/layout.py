@@ -297,10 +297,12 @@ def evaluate(layout: Layout, hist: Histogram) -> Cost:
         gd = np.zeros(1, dtype=np.int64)
         return Cost(0.0, 0, 0, np.zeros(0), np.zeros(0, dtype=np.int64), gd)
     depth = layout.depths()
+    height = int(depth.max())
+    # per-key depths kept with every plan: int16 (signed, so differences stay exact) while they fit
+    depth = depth.astype(np.int16 if height < 2**15 else np.int32)
     key_page, gap_page = end_pages(layout)
     key_depth, gap_depth = depth[key_page], depth[gap_page]
     total = hist.total
-    height = int(depth.max())
     by_depth = np.bincount(key_depth, weights=hist.p, minlength=height + 1)
     by_depth += np.bincount(gap_depth, weights=hist.q, minlength=height + 1)
     if total > 0:
