@@ -63,11 +63,10 @@ class Replay:
 def stop_pages(layout: Layout, replay: Replay) -> np.ndarray:
     """Per lookup, in log order, the page where it stops."""
     key_page, gap_page = end_pages(layout)
-    return np.where(
-        replay.outcomes < replay.n_keys,
-        key_page[np.minimum(replay.outcomes, replay.n_keys - 1)],
-        gap_page[np.maximum(replay.outcomes - replay.n_keys, 0)],
-    )
+    # outcome ids index keys then gaps, so one table of 2n + 1 page ids answers every lookup in a
+    # single gather (int32: a 10M-row replay needs 40 MB here, not the 400 MB of a where/clip)
+    table = np.concatenate([key_page, gap_page]).astype(np.int32)
+    return table[replay.outcomes]
 
 
 def replay_access_sequence(layout: Layout, replay: Replay) -> list[np.ndarray]:

@@ -39,8 +39,11 @@ def load_replay(wl: Workload, order_column: str, limit: int = 20_000_000):
         f"SELECT CASE WHEN lg.v = kk.k THEN kk.r ELSE {n} + coalesce(kk.r, -1) + 1 END AS id, lg.w "
         f"FROM lg ASOF LEFT JOIN {KEYS_TABLE} kk ON lg.v >= kk.k ORDER BY lg.o"
     ).fetchnumpy()
-    ids = np.asarray(rows["id"], dtype=np.int64)
-    reps = np.asarray(rows["w"], dtype=np.int64)
+    # outcome ids run to 2n: int32 while that fits (half the memory of the replayed log)
+    ids = np.asarray(rows.pop("id"), dtype=np.int32 if 2 * n + 1 < 2**31 else np.int64)
+    reps = np.asarray(rows.pop("w"), dtype=np.int64)
+    if reps.size and reps.min() == 1 and reps.max() == 1:  # one lookup per row: nothing to repeat
+        return Replay(ids[: int(limit)], n)
     return Replay(np.repeat(ids, reps)[: int(limit)], n)
 
 

@@ -73,7 +73,7 @@ def _python(v):
 
 
 @settings(
-    max_examples=40, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow]
+    max_examples=30, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow]
 )
 @given(case=cases())
 def test_random_inputs_through_the_cli(tmp_path_factory, case):
