@@ -22,6 +22,13 @@ the DP gives the exact minimum of cost + lam x pages over trees of at most h lev
 
 ``solve_within`` bisects lam for the cheapest lam-optimal tree within the budget and reports the
 dual bound; the plan is proven optimal when that tree meets the bound.
+
+Two exact savings (see :class:`_Levels`): C_{h-1} is infinite beyond cap(h-1) = (c+1)^(h-1) - 1
+keys, so the forests of a lower level are tabulated only as far as they can reach; and the top
+level is needed for the whole range only (a prefix recurrence on row 0). Measured 10-48x faster
+than tabulating every level in full, same optima (``benchmarks/bench_budget_exact.py``).
+``solve_window_within`` is the same DP with exactly w keys on top, the piece of a budgeted
+re-cut (:mod:`advisor.optimize.recut`).
 """
 
 from __future__ import annotations
