@@ -36,7 +36,7 @@ def _height(layout):
     return int(layout.depths().max())
 
 
-@settings(max_examples=60, deadline=None)
+@settings(max_examples=40, deadline=None)
 @given(
     seed=st.integers(0, 10_000),
     n=st.integers(1, 1500),
