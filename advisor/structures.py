@@ -44,6 +44,7 @@ from .optimize.bplus_bounds import bplus_level_bound, bplus_window_bound
 from .optimize.bplus_constrained import bplus_constrained_work, solve_bplus_within
 from .optimize.bplus_within import bplus_within_layout, hot_leaf_candidates
 from .optimize.constrained import (
+    EVALUATIONS,
     WITHIN_OPS_PER_SECOND,
     ConstrainedResult,
     constrained_bytes,
@@ -51,7 +52,7 @@ from .optimize.constrained import (
     solve_within,
 )
 from .optimize.recut import recut
-from .optimize.refine import EVALUATIONS, polish_within
+from .optimize.refine import polish_within
 from .optimize.uniform import min_height
 from .optimize.within import fewest_pages, within_budget_layout
 

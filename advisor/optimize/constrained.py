@@ -25,7 +25,7 @@ dual bound; the plan is proven optimal when that tree meets the bound.
 
 Two exact savings (see :class:`_Levels`): C_{h-1} is infinite beyond cap(h-1) = (c+1)^(h-1) - 1
 keys, so the forests of a lower level are tabulated only as far as they can reach; and the top
-level is needed for the whole range only (a prefix recurrence on row 0). Measured 10-48x faster
+level is needed for the whole range only (a prefix recurrence on row 0). Measured 9.5-48x faster
 than tabulating every level in full, same optima (``benchmarks/bench_budget_exact.py``).
 ``solve_window_within`` is the same DP with exactly w keys on top, the piece of a budgeted
 re-cut (:mod:`advisor.optimize.recut`).
@@ -42,15 +42,10 @@ from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
 from .exact import ROW_BLOCK, ForestTables, forest_chain, forest_roots, length_limits, row_min_of_sums
 from .topdown import build_top_down
-from .uniform import min_height
-
-
-def capacity_of(c: int, h: int) -> int:
-    """Most keys a classic B-tree of capacity c and height h holds."""
-    return (c + 1) ** h - 1 if h > 0 else 0
-
+from .uniform import min_height, reach
 
 BISECTION_STEPS = 14
+EVALUATIONS = BISECTION_STEPS // 2 + 2  # typical DP runs of one bisection (measured 1-8), for work estimates
 WITHIN_OPS_PER_SECOND = 1.2e8  # of constrained_work, this machine kind (0.7-2.4e8 measured, n = 500-2,000)
 
 
@@ -75,14 +70,13 @@ def constrained_work(n: int, c: int, height: int, top: int | None = None) -> flo
     """Element operations of one DP run at n keys, the same count as the loops of
     :class:`_Levels` (banded lower levels, the prefix-only top); the bisection runs several."""
     split = forest_chain(c)
+    longest = length_limits(split, (c,), n)
     ops = float((c if top is None else top) * (n + 1) ** 2 + 4 * (n + 1) ** 2)  # top page, tables
     for h in range(2, height):
-        sub = capacity_of(c, h - 1)
-        longest = length_limits(split, (c,), n)
-        reach = forest_reach(split, c, sub, n)
+        span = forest_reach(split, c, reach(h - 1, c), n)
         for s, (a, b) in split.items():
-            L = np.arange(max(s, 1), min(longest[s], reach[s]) + 1, dtype=np.float64)
-            width = np.minimum(L - 1 - b, reach[a]) - np.maximum(a, L - 1 - reach[b]) + 1
+            L = np.arange(max(s, 1), min(longest[s], span[s]) + 1, dtype=np.float64)
+            width = np.minimum(L - 1 - b, span[a]) - np.maximum(a, L - 1 - span[b]) + 1
             ops += float(((n - L + 1) * np.maximum(width, 0)).sum())
         ops += 3 * (n + 1) ** 2  # the level's tables filled
     return ops
@@ -121,7 +115,7 @@ class _Levels:
         base[:, 0] = 0.0
         C = base  # C_h as start-indexed [i, L]
         for h in range(2, height):
-            start, end = self._forests(C, self.split, c, capacity_of(c, h - 1))
+            start, end = self._forests(C, self.split, c, reach(h - 1, c))
             C = base.copy()
             C[:, c + 1 :] = W[:, c + 1 :] + lam + start[c][:, c + 1 :]
             self.levels.append((start, end))
@@ -154,9 +148,9 @@ class _Levels:
         lower levels)."""
         n = self.n
         longest = length_limits(split, (top,), n)
-        reach = forest_reach(split, top, sub_keys, n)
+        span = forest_reach(split, top, sub_keys, n)
         for s in split:
-            longest[s] = min(longest[s], reach[s])
+            longest[s] = min(longest[s], span[s])
         lefts = {a for a, _ in split.values()} | {0, top}
         rights = {b for _, b in split.values()} | {0}
         start = {s: np.full((n + 1, n + 1), np.inf) for s in lefts}
@@ -176,7 +170,7 @@ class _Levels:
                 if L > longest[s]:
                     continue
                 a, b = split[s]
-                lo, hi = max(a, L - 1 - reach[b]), min(L - 1 - b, reach[a])  # left part lengths
+                lo, hi = max(a, L - 1 - span[b]), min(L - 1 - b, span[a])  # left part lengths
                 if lo > hi:
                     continue
                 left = start[a][:m, lo : hi + 1]

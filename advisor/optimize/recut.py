@@ -21,11 +21,9 @@ import numpy as np
 
 from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
-from .constrained import BISECTION_STEPS, constrained_work, solve_window_within
+from .constrained import EVALUATIONS, constrained_work, solve_window_within
 from .exact import exact_work, solve_exact
 from .uniform import min_height
-
-EVALUATIONS = BISECTION_STEPS // 2 + 2  # typical DP runs of one price bisection (measured 1-8)
 
 
 @dataclass

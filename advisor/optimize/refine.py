@@ -16,10 +16,9 @@ import numpy as np
 
 from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder, page_traffic
-from .constrained import BISECTION_STEPS, constrained_bytes, constrained_work, solve_within
+from .constrained import EVALUATIONS, constrained_bytes, constrained_work, solve_within
 from .near import subtree_ranges
 
-EVALUATIONS = BISECTION_STEPS // 2 + 2  # typical DP runs of one bisection (measured 1-8)
 MAX_BYTES = 1.0e9
 
 
