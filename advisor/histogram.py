@@ -8,6 +8,7 @@ key 0 (g = 0), between keys g-1 and g, or after key n-1 (g = n).
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 
@@ -53,6 +54,18 @@ class Histogram:
     def total(self) -> float:
         """Weight the index answers: hits plus misses (NULL lookups excluded)."""
         return self.hits + self.misses
+
+    @cached_property
+    def key_score(self) -> np.ndarray:
+        """Each key's hits plus half the misses of each gap beside it: how much lifting that key
+        toward the root is worth to the budgeted constructions."""
+        return self.p + 0.5 * (self.q[:-1] + self.q[1:])
+
+    @cached_property
+    def score_order(self) -> np.ndarray:
+        """Key ranks by :attr:`key_score`, highest first, ties by rank: sorted once per histogram,
+        shared by every budgeted construction of its plans and frontier points."""
+        return np.argsort(-self.key_score, kind="stable")
 
     def entropy_bits(self) -> float:
         """Shannon entropy (bits) of the outcome distribution over keys and gaps."""

@@ -8,6 +8,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..histogram import Histogram
+from .runs_kernel import runs_upper
 
 
 def entropy_bound(hist: Histogram, c: int) -> float:
@@ -140,6 +141,11 @@ def runs_weight_upper(w: np.ndarray, c: int, heavy: int) -> np.ndarray:
     count = int(np.clip(40 * (700 / max(c, 1)) ** 2, 6, 40))
     ranks = np.unique(np.geomspace(1, m, count).astype(int)) - 1
     lambdas = np.unique(np.concatenate([[0.0], np.sort(hw)[::-1][ranks]]))
+    return runs_upper(hw, adjacent, c, lambdas, light, tau)
+
+
+def runs_upper_plain(hw, adjacent, c, lambdas, light, tau) -> np.ndarray:
+    """The plain reference of :func:`advisor.optimize.runs_kernel.runs_upper` (tests compare)."""
     U = np.full(c + 1, np.inf)
     for lam in lambdas:
         D = _runs_dp(hw - lam, adjacent, c)  # D[r]: best sum of (w - lam) in exactly r runs

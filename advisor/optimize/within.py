@@ -30,6 +30,7 @@ import numpy as np
 from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
 from .uniform import min_height
+from .within_build import SATURATED, build_within
 from .within_kernel import choose_root_keys
 
 
@@ -89,12 +90,34 @@ def within_budget_layout(
     down; cuts around the cluster give them pages of their own one level down.
     """
     n = hist.n
+    if n == 0:
+        return LayoutBuilder(n, c).build()
+    if max_pages < fewest_pages(n, c) or max_height < min_height(n, c):
+        raise ValueError("budget below the minimum: the caller checks this")
+    score = hist.key_score
+    cum = np.concatenate([[0.0], np.cumsum(score)])
+    start, keys, parent, slot = build_within(
+        score, cum, hist.score_order, c, max_pages, max_height, tries, fill_first, float(hot_share)
+    )
+    return Layout("btree", n, c, start, keys, parent, slot)
+
+
+def within_budget_layout_plain(
+    hist: Histogram,
+    c: int,
+    max_pages: int,
+    max_height: int,
+    tries: int = 2,
+    fill_first: bool = False,
+    hot_share: float = 1.0,
+) -> Layout:
+    """The plain reference of :func:`within_budget_layout` (compiled in
+    :mod:`advisor.optimize.within_build`; the tests check both build the same layout)."""
+    n = hist.n
     b = LayoutBuilder(n, c)
     if n == 0:
         return b.build()
-    if max_pages < fewest_pages(n, c) or max_height < min_height(n, c):
-        raise ValueError("budget below the minimum: the caller checks this")
-    score = hist.p + 0.5 * (hist.q[:-1] + hist.q[1:])
+    score = hist.key_score
     cum = np.concatenate([[0.0], np.cumsum(score)])
     todo = deque([(0, n, max_height, max_pages, -1, -1)])
     while todo:
@@ -234,12 +257,11 @@ def _root_page(
     score: np.ndarray, lo: int, hi: int, c: int, h: int, budget: int, tries: int, fill_first=False, hot_share=1.0
 ):
     """Root keys of range lo..hi-1 (ascending global ranks)."""
-    sub = capacity_of(c, h - 1)
+    sub = min(capacity_of(c, h - 1), SATURATED)  # beyond any range: the same as unbounded
     size = hi - lo
     k = min(size, tries * c)
     local = score[lo:hi]
-    top = np.argpartition(-local, k - 1)[:k] if k < size else np.arange(size)
-    top = top[np.argsort(-local[top], kind="stable")]
+    top = np.argsort(-local, kind="stable")[:k]  # hottest first, ties by rank
     fill = _aligned_fillers(size, c, sub)
     fill = fill[~np.isin(fill, top)]
     hot = top[local[top] > 0]

@@ -76,9 +76,55 @@ def _tally(cnt_tree, cost_tree, count, g, c, sub, sign):
 @njit(cache=True)
 def choose_root_keys(local, order, size, c, sub, budget):
     """Local ranks (ascending) of the hot keys a root page over ``size`` keys keeps, offered in
-    ``order``; ``sub`` = keys a child subtree holds (at most size + 1), ``budget`` = pages."""
+    ``order`` up to the first key of no lookup weight; ``sub`` = keys a child subtree holds (at
+    most size + 1), ``budget`` = pages."""
+    stop = 0
+    while stop < order.shape[0] and local[order[stop]] > 0:
+        stop += 1
+    return choose_offered(order[:stop], size, c, sub, budget)
+
+
+@njit(cache=True)
+def _kth(tree, k, top_bit):
+    """Smallest position p with prefix count(p) >= k (Fenwick descent)."""
+    pos = 0
+    step = top_bit
+    while step:
+        nxt = pos + step
+        if nxt < tree.shape[0] and tree[nxt] < k:
+            pos = nxt
+            k -= tree[nxt]
+        step >>= 1
+    return pos + 1
+
+
+@njit(cache=True)
+def _prefix(tree, i):
+    s = 0
+    while i > 0:
+        s += tree[i]
+        i -= i & (-i)
+    return s
+
+
+@njit(cache=True)
+def choose_offered(order, size, c, sub, budget):
+    """:func:`choose_root_keys` with every key of ``order`` (distinct keys) offered.
+
+    A key's neighbours among those kept are found on a Fenwick tree over the offered keys in
+    key order (O(log m) per offer): a sorted array of kept keys would shift O(c) entries per
+    insert, O(c^2) per page, the larger cost at large c."""
+    m = order.shape[0]
+    by_key = np.argsort(order)
+    sorted_keys = order[by_key]
+    where = np.empty(m, dtype=np.int64)  # offer t's position (1-based) in key order
+    for j in range(m):
+        where[by_key[j]] = j + 1
+    kept = np.zeros(m + 1, dtype=np.int64)
+    kept_top = 1
+    while kept_top * 2 <= m:
+        kept_top *= 2
     chosen = np.empty(c, dtype=np.int64)
-    gaps = np.empty(c + 1, dtype=np.int64)
     count = np.zeros(c + 1, dtype=np.int64)
     cnt_tree = np.zeros(c + 1, dtype=np.int64)
     cost_tree = np.zeros(c + 1, dtype=np.int64)
@@ -86,22 +132,20 @@ def choose_root_keys(local, order, size, c, sub, budget):
     while top_bit * 2 <= c:
         top_bit *= 2
     nch = 0
-    gaps[0] = size
     cuts = _cuts(size, sub)
     pages = _pages(size, c, sub)
     _tally(cnt_tree, cost_tree, count, size, c, sub, 1)
-    for t in range(order.shape[0]):
+    for t in range(m):
         if nch >= c:
             break
         x = order[t]
-        if local[x] <= 0:
-            break
-        i = np.searchsorted(chosen[:nch], x)
-        left_edge = chosen[i - 1] if i > 0 else -1
-        right_edge = chosen[i] if i < nch else size
+        px = where[t]
+        i = _prefix(kept, px - 1)  # kept keys below x
+        left_edge = sorted_keys[_kth(kept, i, kept_top) - 1] if i > 0 else -1
+        right_edge = sorted_keys[_kth(kept, i + 1, kept_top) - 1] if i < nch else size
         left = x - left_edge - 1
         right = right_edge - x - 1
-        g = gaps[i]
+        g = right_edge - left_edge - 1
         new_cuts = cuts - _cuts(g, sub) + _cuts(left, sub) + _cuts(right, sub)
         spare = (c - nch - 1) - new_cuts
         if spare < 0:
@@ -111,17 +155,12 @@ def choose_root_keys(local, order, size, c, sub, budget):
         _tally(cnt_tree, cost_tree, count, left, c, sub, 1)
         _tally(cnt_tree, cost_tree, count, right, c, sub, 1)
         if new_pages - _saved(cnt_tree, cost_tree, count, spare, top_bit) + 1 <= budget:
-            for k in range(nch, i, -1):
-                chosen[k] = chosen[k - 1]
-            chosen[i] = x
-            for k in range(nch + 1, i + 1, -1):
-                gaps[k] = gaps[k - 1]
-            gaps[i] = left
-            gaps[i + 1] = right
+            _add(kept, px, 1)
+            chosen[nch] = x
             nch += 1
             cuts, pages = new_cuts, new_pages
         else:  # undo the trial
             _tally(cnt_tree, cost_tree, count, left, c, sub, -1)
             _tally(cnt_tree, cost_tree, count, right, c, sub, -1)
             _tally(cnt_tree, cost_tree, count, g, c, sub, 1)
-    return chosen[:nch].copy()
+    return np.sort(chosen[:nch])

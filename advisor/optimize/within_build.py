@@ -1,0 +1,317 @@
+"""The budgeted top-down construction of :mod:`advisor.optimize.within`, compiled whole.
+
+The plain construction spends most of its time in per-page numpy calls (a top-k selection, a
+cumulative sum, the gap plan, the cut positions: a dozen small calls per page, thousands of
+pages per plan, a dozen plans per page size). Here one numba call builds the whole layout with
+the same arithmetic in the same order, so the layouts are identical (the tests build both).
+
+Two things differ in how, not what:
+
+* the hottest keys of a range come from the histogram's key order by lookup score (one stable
+  sort per histogram, :attr:`advisor.histogram.Histogram.score_order`), handed down level by
+  level: each range's keys in that order are split stably among its children, O(n log c) per
+  level, instead of a selection over every range;
+* a key offered twice to a root is kept at its first offer by a sort, not by ``np.unique``.
+
+Capacities (c + 1)^h - 1 are saturated at 2^40 keys: every use compares them with a range of
+fewer keys, so a saturated value acts as "unbounded" exactly as the exact one does.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numba import njit
+
+from .within_kernel import choose_offered
+
+SATURATED = 1 << 40
+
+
+@njit(cache=True)
+def capacity_saturated(c, h):
+    """Most keys a classic B-tree of capacity c and height h holds, at most 2^40."""
+    if h <= 0:
+        return 0
+    cap = 1
+    for _ in range(h):
+        cap *= c + 1
+        if cap > SATURATED:
+            return SATURATED
+    return cap - 1
+
+
+@njit(cache=True)
+def _ceil_div(a, b):
+    return -((-a) // b)
+
+
+@njit(cache=True)
+def cut_positions(lc, first, length, cuts, c, sub, out, k):
+    """Write ``cuts`` cut keys into out[k:] (see :func:`advisor.optimize.within._cut_positions`);
+    returns the new fill of ``out``."""
+    pos, keys_left, per = first, length - cuts, sub // c
+    end = first + length
+    for t in range(cuts):
+        pieces_left = cuts + 1 - t
+        m_lo = max(0, _ceil_div(keys_left - (pieces_left - 1) * sub, c))
+        m_hi = min(per, keys_left // c)
+        goal = lc[pos] + (lc[end] - lc[pos]) / pieces_left
+        want = np.searchsorted(lc, goal) - pos
+        m = min(max(int(np.rint(want / c)), m_lo), m_hi)
+        pos += m * c
+        out[k] = pos
+        k += 1
+        pos += 1
+        keys_left -= m * c
+    return k
+
+
+@njit(cache=True)
+def share_spare_kernel(slack, weights, need, least_useful):
+    """Compiled :func:`advisor.optimize.within.share_spare` (same rounding, same tie order)."""
+    m = weights.shape[0]
+    out = np.zeros(m, dtype=np.int64)
+    total = 0.0
+    for t in range(m):
+        if need[t] >= least_useful:
+            total += weights[t]
+    if slack <= 0 or total <= 0:
+        return out
+    given = 0
+    for t in range(m):
+        if need[t] >= least_useful:
+            out[t] = int(slack * weights[t] / total)
+            given += out[t]
+    left = slack - given
+    order = np.argsort(-weights, kind="mergesort")
+    for i in range(m):
+        if left <= 0:
+            break
+        t = order[i]
+        if need[t] >= least_useful:
+            out[t] += 1
+            left -= 1
+    return out
+
+
+@njit(cache=True)
+def _first_offers(offered, count):
+    """offered[:count] with repeats removed, each key kept at its first offer."""
+    idx = np.argsort(offered[:count], kind="mergesort")
+    keep = np.ones(count, dtype=np.bool_)
+    for i in range(1, count):
+        if offered[idx[i]] == offered[idx[i - 1]]:
+            keep[idx[i]] = False
+    out = np.empty(count, dtype=np.int64)
+    k = 0
+    for i in range(count):
+        if keep[i]:
+            out[k] = offered[i]
+            k += 1
+    return out[:k]
+
+
+@njit(cache=True)
+def root_page(score, ranked, lo, hi, c, h, budget, tries, fill_first, hot_share):
+    """Root keys (ascending global ranks) of range lo..hi-1; ``ranked`` holds the range's keys
+    (global ranks) hottest first, ties by rank."""
+    sub = capacity_saturated(c, h - 1)
+    size = hi - lo
+    k = min(size, tries * c)
+    lc = np.empty(size + 1)
+    lc[0] = 0.0
+    for i in range(size):
+        lc[i + 1] = lc[i] + score[lo + i]
+    n_hot = 0
+    while n_hot < k and score[ranked[n_hot]] > 0:
+        n_hot += 1
+    top_sorted = np.sort(ranked[:k] - lo)
+    m = max(1, min(sub // c, (size - c) // ((c + 1) * c)))
+    stride = m * c + 1
+    fill = np.empty(c, dtype=np.int64)
+    n_fill = 0
+    x = stride - 1
+    for _ in range(c):  # the first c strided keys, less those already offered as hot
+        if x >= size:
+            break
+        j = np.searchsorted(top_sorted, x)
+        if not (j < k and top_sorted[j] == x):
+            fill[n_fill] = x
+            n_fill += 1
+        x += stride
+    offered = np.empty(n_hot + n_fill + c + 1, dtype=np.int64)
+    count = 0
+    if hot_share < 1.0 and size > 2 * c:
+        first = min(int(hot_share * c), n_hot)
+        for i in range(first):
+            offered[count] = ranked[i] - lo
+            count += 1
+        even = np.empty(c + 1, dtype=np.int64)
+        n_even = cut_positions(lc, 0, size, min(c - int(hot_share * c), size // (c + 1)), c, min(sub, size), even, 0)
+        for i in range(n_even):
+            if 0 <= even[i] < size:
+                offered[count] = even[i]
+                count += 1
+        for i in range(first, n_hot):
+            offered[count] = ranked[i] - lo
+            count += 1
+        for i in range(n_fill):
+            offered[count] = fill[i]
+            count += 1
+        offered = _first_offers(offered, count)
+    else:
+        if fill_first:
+            for i in range(n_fill):
+                offered[count] = fill[i]
+                count += 1
+        for i in range(n_hot):
+            offered[count] = ranked[i] - lo
+            count += 1
+        if not fill_first:
+            for i in range(n_fill):
+                offered[count] = fill[i]
+                count += 1
+        offered = offered[:count]
+    chosen = choose_offered(offered, size, c, min(sub, size + 1), budget)
+    nch = chosen.shape[0]
+    # the gap plan (within._gap_plan): cuts per gap, then spare slots take remainders smallest first
+    gaps = np.empty(nch + 1, dtype=np.int64)
+    starts = np.empty(nch + 1, dtype=np.int64)
+    prev = -1
+    for t in range(nch + 1):
+        nxt = chosen[t] if t < nch else size
+        gaps[t] = nxt - prev - 1
+        starts[t] = prev + 1
+        prev = nxt
+    cuts = np.zeros(nch + 1, dtype=np.int64)
+    total_cuts = 0
+    for t in range(nch + 1):
+        if gaps[t] > 0:
+            cuts[t] = _ceil_div(gaps[t] + 1, sub + 1) - 1
+            total_cuts += cuts[t]
+    spare = c - nch - total_cuts
+    if spare < 0:
+        raise AssertionError("range not completable within its budget")
+    pages = 0
+    n_runs = 0
+    run_ids = np.empty(nch + 1, dtype=np.int64)
+    rems = np.empty(nch + 1, dtype=np.int64)
+    for t in range(nch + 1):
+        left = gaps[t] - cuts[t]
+        pages += _ceil_div(left, c)
+        if left > 0:
+            r = left % c
+            run_ids[n_runs] = t
+            rems[n_runs] = r if r else c
+            n_runs += 1
+    order = np.argsort(rems[:n_runs], kind="mergesort")  # by remainder, ties by position
+    moved = np.zeros(nch + 1, dtype=np.int64)
+    used = 0
+    taken = 0
+    for i in range(n_runs):
+        r = rems[order[i]]
+        if used + r > spare:
+            break
+        used += r
+        moved[run_ids[order[i]]] = r
+        taken += 1
+    if pages - taken + 1 > budget:
+        raise AssertionError("range not completable within its budget")
+    keys = np.empty(c, dtype=np.int64)
+    nk = 0
+    for i in range(nch):
+        keys[nk] = chosen[i]
+        nk += 1
+    for t in range(nch + 1):
+        r = moved[t]
+        if r == 0 and cuts[t] == 0:
+            continue
+        a, g = starts[t], gaps[t]
+        # keys moved up come from the end of the run with more lookup weight
+        left_end = True
+        if r:
+            left_end = lc[a + r] - lc[a] >= lc[a + g] - lc[a + g - r]
+        base = a if left_end else a + g - r
+        for i in range(r):
+            keys[nk] = base + i
+            nk += 1
+        if cuts[t]:
+            nk = cut_positions(lc, a + r if left_end else a, g - r, cuts[t], c, sub, keys, nk)
+    out = np.sort(keys[:nk])
+    return out + lo
+
+
+@njit(cache=True)
+def build_within(score, cum, order, c, max_pages, max_height, tries, fill_first, hot_share):
+    """The whole construction: (page_start, page_keys, parent, slot), pages in breadth-first
+    order as :func:`advisor.optimize.within.within_budget_layout` adds them."""
+    n = score.shape[0]
+    q_lo = np.empty(n, dtype=np.int64)
+    q_hi = np.empty(n, dtype=np.int64)
+    q_h = np.empty(n, dtype=np.int64)
+    q_budget = np.empty(n, dtype=np.int64)
+    q_parent = np.empty(n, dtype=np.int64)
+    q_slot = np.empty(n, dtype=np.int64)
+    q_off = np.empty(n, dtype=np.int64)  # where the range's ranked keys start in its level's buffer
+    bufs = np.empty((2, n), dtype=order.dtype)
+    bufs[max_height % 2, :] = order
+    write = np.zeros(2, dtype=np.int64)
+    page_start = np.zeros(n + 1, dtype=np.int64)
+    page_keys = np.empty(n, dtype=np.int64)
+    q_lo[0], q_hi[0], q_h[0], q_budget[0], q_parent[0], q_slot[0], q_off[0] = 0, n, max_height, max_pages, -1, -1, 0
+    head, tail = 0, 1
+    level = max_height
+    while head < tail:
+        lo, hi, h, budget = q_lo[head], q_hi[head], q_h[head], q_budget[head]
+        page = head
+        head += 1
+        if h < level:  # a new level: the buffer of the level below it is free again
+            level = h
+            write[(h - 1) % 2] = 0
+        start = page_start[page]
+        if hi - lo <= c:
+            for i in range(hi - lo):
+                page_keys[start + i] = lo + i
+            page_start[page + 1] = start + hi - lo
+            continue
+        mine = bufs[h % 2, q_off[page] : q_off[page] + hi - lo]
+        keys = root_page(score, mine, lo, hi, c, h, budget, tries, fill_first, hot_share)
+        nk = keys.shape[0]
+        page_keys[start : start + nk] = keys
+        page_start[page + 1] = start + nk
+        kids = nk + 1
+        k_start = np.empty(kids, dtype=np.int64)
+        k_end = np.empty(kids, dtype=np.int64)
+        need = np.empty(kids, dtype=np.int64)
+        weight = np.empty(kids)
+        need_sum = 0
+        for t in range(kids):
+            k_start[t] = lo if t == 0 else keys[t - 1] + 1
+            k_end[t] = keys[t] if t < nk else hi
+            need[t] = _ceil_div(k_end[t] - k_start[t], c)
+            need_sum += need[t]
+            weight[t] = cum[k_end[t]] - cum[k_start[t]]
+        share = share_spare_kernel(budget - 1 - need_sum, weight, need, 2)
+        # the children's ranked keys, split stably from this range's
+        below = (h - 1) % 2
+        fill_at = np.empty(kids, dtype=np.int64)
+        at = write[below]
+        for t in range(kids):
+            fill_at[t] = at
+            size = k_end[t] - k_start[t]
+            if size > 0:
+                q_lo[tail], q_hi[tail], q_h[tail] = k_start[t], k_end[t], h - 1
+                q_budget[tail], q_parent[tail], q_slot[tail], q_off[tail] = need[t] + share[t], page, t, at
+                tail += 1
+            at += size
+        write[below] = at
+        if h - 1 >= 1:
+            for i in range(hi - lo):
+                x = mine[i]
+                t = np.searchsorted(keys, x)
+                if t < nk and keys[t] == x:
+                    continue
+                bufs[below, fill_at[t]] = x
+                fill_at[t] += 1
+    pages = head
+    return page_start[: pages + 1].copy(), page_keys, q_parent[:pages].copy(), q_slot[:pages].copy()
