@@ -65,7 +65,8 @@ class Histogram:
     def score_order(self) -> np.ndarray:
         """Key ranks by :attr:`key_score`, highest first, ties by rank: sorted once per histogram,
         shared by every budgeted construction of its plans and frontier points."""
-        return np.argsort(-self.key_score, kind="stable")
+        order = np.argsort(-self.key_score, kind="stable")
+        return order.astype(np.int32) if self.n < 2**31 else order
 
     def entropy_bits(self) -> float:
         """Shannon entropy (bits) of the outcome distribution over keys and gaps."""

@@ -10,8 +10,10 @@ every figure comes from :func:`advisor.layout.evaluate`.
 
 from __future__ import annotations
 
+import os
 import time
 from collections.abc import Callable
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 
 from .budget import Budget, BudgetSpec, resolve
@@ -36,6 +38,7 @@ LOOSE_MAX_KEYS = (
     100_000  # ... below this many keys (beyond, their trees of many more pages rarely fit and cost seconds)
 )
 POLISH_TOP = 2
+RANK_THREADS = max(1, min(4, os.cpu_count() or 1))
 
 
 def saving(uniform: float, advised: float) -> float:
@@ -188,13 +191,26 @@ def plan_budget(spec: BudgetSpec, uni: Layout, n: int, c: int, shape: ClassicTre
 
 
 def _rank(fit: Histogram, uni: Layout, candidates, step, budget: Budget | None = None) -> list:
-    """(reads, name, layout) of the even split and every candidate (within ``budget``), best first."""
-    ranked = [(evaluate(uni, fit).expected_page_reads, "even split (nothing better found)", uni)]
-    for name, build in candidates:
-        step(name)
+    """(reads, name, layout) of the even split and every candidate (within ``budget``), best first.
+
+    Candidates are built and costed on one thread per core: the budgeted constructions are
+    compiled without the GIL and numpy releases it in the evaluator's large operations. The
+    ranking does not depend on which finishes first (ties keep the candidates' order)."""
+
+    def one(name: str, build):
         cand = build()
         if budget is None or budget.allows(cand):
-            ranked.append((evaluate(cand, fit).expected_page_reads, name, cand))
+            return evaluate(cand, fit).expected_page_reads, name, cand
+        return None
+
+    ranked = [(evaluate(uni, fit).expected_page_reads, "even split (nothing better found)", uni)]
+    with ThreadPoolExecutor(max_workers=RANK_THREADS) as pool:
+        jobs = [(name, pool.submit(one, name, build)) for name, build in candidates]
+        for name, job in jobs:
+            step(name)
+            found = job.result()
+            if found is not None:
+                ranked.append(found)
     ranked.sort(key=lambda x: x[0])
     return ranked
 

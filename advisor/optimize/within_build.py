@@ -242,27 +242,30 @@ def root_page(score, ranked, lo, hi, c, h, budget, tries, fill_first, hot_share)
 
 
 @njit(cache=True)
+def _grown(a, size):
+    out = np.empty(size, dtype=a.dtype)
+    out[: a.shape[0]] = a
+    return out
+
+
+@njit(cache=True, nogil=True)
 def build_within(score, cum, order, c, max_pages, max_height, tries, fill_first, hot_share):
     """The whole construction: (page_start, page_keys, parent, slot), pages in breadth-first
-    order as :func:`advisor.optimize.within.within_budget_layout` adds them."""
+    order as :func:`advisor.optimize.within.within_budget_layout` adds them. Releases the GIL,
+    so the planner builds several candidates at once."""
     n = score.shape[0]
-    q_lo = np.empty(n, dtype=np.int64)
-    q_hi = np.empty(n, dtype=np.int64)
-    q_h = np.empty(n, dtype=np.int64)
-    q_budget = np.empty(n, dtype=np.int64)
-    q_parent = np.empty(n, dtype=np.int64)
-    q_slot = np.empty(n, dtype=np.int64)
-    q_off = np.empty(n, dtype=np.int64)  # where the range's ranked keys start in its level's buffer
-    bufs = np.empty((2, n), dtype=order.dtype)
+    room = min(n, max_pages, 2 * ((n + c - 1) // c) + 16)  # pages; grown when a loose budget needs more
+    q = np.empty((7, room), dtype=np.int64)  # per page: lo, hi, h, budget, parent, slot, offset
+    bufs = np.empty((2, n), dtype=order.dtype)  # each level's ranges' keys, hottest first
     bufs[max_height % 2, :] = order
     write = np.zeros(2, dtype=np.int64)
-    page_start = np.zeros(n + 1, dtype=np.int64)
+    page_start = np.zeros(room + 1, dtype=np.int64)
     page_keys = np.empty(n, dtype=np.int64)
-    q_lo[0], q_hi[0], q_h[0], q_budget[0], q_parent[0], q_slot[0], q_off[0] = 0, n, max_height, max_pages, -1, -1, 0
+    q[0, 0], q[1, 0], q[2, 0], q[3, 0], q[4, 0], q[5, 0], q[6, 0] = 0, n, max_height, max_pages, -1, -1, 0
     head, tail = 0, 1
     level = max_height
     while head < tail:
-        lo, hi, h, budget = q_lo[head], q_hi[head], q_h[head], q_budget[head]
+        lo, hi, h, budget = q[0, head], q[1, head], q[2, head], q[3, head]
         page = head
         head += 1
         if h < level:  # a new level: the buffer of the level below it is free again
@@ -274,7 +277,7 @@ def build_within(score, cum, order, c, max_pages, max_height, tries, fill_first,
                 page_keys[start + i] = lo + i
             page_start[page + 1] = start + hi - lo
             continue
-        mine = bufs[h % 2, q_off[page] : q_off[page] + hi - lo]
+        mine = bufs[h % 2, q[6, page] : q[6, page] + hi - lo]
         keys = root_page(score, mine, lo, hi, c, h, budget, tries, fill_first, hot_share)
         nk = keys.shape[0]
         page_keys[start : start + nk] = keys
@@ -292,6 +295,12 @@ def build_within(score, cum, order, c, max_pages, max_height, tries, fill_first,
             need_sum += need[t]
             weight[t] = cum[k_end[t]] - cum[k_start[t]]
         share = share_spare_kernel(budget - 1 - need_sum, weight, need, 2)
+        if tail + kids > q.shape[1]:
+            room = min(n, max(2 * q.shape[1], tail + kids))
+            grown = np.empty((7, room), dtype=np.int64)
+            grown[:, : q.shape[1]] = q
+            q = grown
+            page_start = _grown(page_start, room + 1)
         # the children's ranked keys, split stably from this range's
         below = (h - 1) % 2
         fill_at = np.empty(kids, dtype=np.int64)
@@ -300,8 +309,8 @@ def build_within(score, cum, order, c, max_pages, max_height, tries, fill_first,
             fill_at[t] = at
             size = k_end[t] - k_start[t]
             if size > 0:
-                q_lo[tail], q_hi[tail], q_h[tail] = k_start[t], k_end[t], h - 1
-                q_budget[tail], q_parent[tail], q_slot[tail], q_off[tail] = need[t] + share[t], page, t, at
+                q[0, tail], q[1, tail], q[2, tail] = k_start[t], k_end[t], h - 1
+                q[3, tail], q[4, tail], q[5, tail], q[6, tail] = need[t] + share[t], page, t, at
                 tail += 1
             at += size
         write[below] = at
@@ -314,4 +323,4 @@ def build_within(score, cum, order, c, max_pages, max_height, tries, fill_first,
                 bufs[below, fill_at[t]] = x
                 fill_at[t] += 1
     pages = head
-    return page_start[: pages + 1].copy(), page_keys, q_parent[:pages].copy(), q_slot[:pages].copy()
+    return page_start[: pages + 1].copy(), page_keys, q[4, :pages].copy(), q[5, :pages].copy()
