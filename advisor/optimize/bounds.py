@@ -40,7 +40,16 @@ def level_capacity_bound(hist: Histogram, c: int) -> float:
     n, total = hist.n, hist.total
     if n == 0 or total <= 0:
         return 0.0
-    return max(pack_levels(key_weights(hist, alpha), 1, c, c + 1) / total for alpha in (0.0, 0.5, 1.0))
+    return max(pack_sorted(sorted_key_weights(hist, alpha), 1, c, c + 1) / total for alpha in (0.0, 0.5, 1.0))
+
+
+def sorted_key_weights(hist: Histogram, alpha: float) -> np.ndarray:
+    """:func:`key_weights` heaviest first, sorted once per histogram and alpha: every page size's
+    level and root-runs bounds read the same three orders (a full sort is about 1 s at 10M keys)."""
+    cache = hist.__dict__.setdefault("_sorted_key_weights", {})
+    if alpha not in cache:
+        cache[alpha] = np.sort(key_weights(hist, alpha))[::-1]
+    return cache[alpha]
 
 
 def key_weights(hist: Histogram, alpha: float) -> np.ndarray:
@@ -57,7 +66,11 @@ def key_weights(hist: Histogram, alpha: float) -> np.ndarray:
 def pack_levels(w: np.ndarray, first_depth: int, first_size: int, growth: int) -> float:
     """min over level assignments of sum w * depth: ``first_size`` slots at ``first_depth``,
     each deeper level ``growth`` times the one above; the heaviest weights go shallowest."""
-    ws = np.sort(w)[::-1]
+    return pack_sorted(np.sort(w)[::-1], first_depth, first_size, growth)
+
+
+def pack_sorted(ws: np.ndarray, first_depth: int, first_size: int, growth: int) -> float:
+    """:func:`pack_levels` of weights already sorted heaviest first."""
     cum = np.concatenate([[0.0], np.cumsum(ws)])
     cost, start, d, size = 0.0, 0, first_depth, first_size
     while start < ws.size:
@@ -100,11 +113,14 @@ def root_runs_bound(hist: Histogram, c: int, heavy: int | None = None) -> float:
     n, total = hist.n, hist.total
     if n == 0 or total <= 0 or n <= c:
         return level_capacity_bound(hist, c)
-    return max(_root_runs(key_weights(hist, alpha), c, heavy or 2 * c + 2) / total for alpha in (0.0, 0.5, 1.0))
+    return max(
+        _root_runs(key_weights(hist, alpha), c, heavy or 2 * c + 2, sorted_key_weights(hist, alpha)) / total
+        for alpha in (0.0, 0.5, 1.0)
+    )
 
 
-def _root_runs(w: np.ndarray, c: int, heavy: int) -> float:
-    ws = np.sort(w)[::-1]
+def _root_runs(w: np.ndarray, c: int, heavy: int, ws: np.ndarray | None = None) -> float:
+    ws = np.sort(w)[::-1] if ws is None else ws
     top = float(ws[:c].sum())
     rest_cum = np.concatenate([[0.0], np.cumsum(ws[c:])])
     N = np.minimum(runs_weight_upper(w, c, heavy), top)  # no c keys outweigh the c heaviest
@@ -130,10 +146,15 @@ def _pack_holes(cum: np.ndarray, c: int, r: int) -> float:
 def runs_weight_upper(w: np.ndarray, c: int, heavy: int) -> np.ndarray:
     """U[r] >= the most weight of at most c keys forming exactly r runs (r = 0..c; -inf: none)."""
     n = w.size
-    order = np.argsort(-w, kind="stable")
     m = min(n, heavy)
-    keep = np.sort(order[:m])
-    tau = float(w[order[m]]) if m < n else 0.0
+    if m < n:
+        # the m heaviest keys, ties by rank (as a stable sort would take them), and the next
+        # weight, by one partition instead of a full sort
+        tau = float(np.partition(w, n - m - 1)[n - m - 1])
+        above = np.flatnonzero(w > tau)
+        keep = np.sort(np.concatenate([above, np.flatnonzero(w == tau)[: m - above.size]]))
+    else:
+        keep, tau = np.arange(n), 0.0
     light = min(c, n - m)
     hw = w[keep]
     adjacent = np.concatenate([[False], np.diff(keep) == 1])

@@ -118,10 +118,7 @@ def root_page(score, ranked, lo, hi, c, h, budget, tries, fill_first, hot_share)
     sub = capacity_saturated(c, h - 1)
     size = hi - lo
     k = min(size, tries * c)
-    lc = np.empty(size + 1)
-    lc[0] = 0.0
-    for i in range(size):
-        lc[i + 1] = lc[i] + score[lo + i]
+    lc = local_cum(score, lo, hi)
     n_hot = 0
     while n_hot < k and score[ranked[n_hot]] > 0:
         n_hot += 1
@@ -172,6 +169,23 @@ def root_page(score, ranked, lo, hi, c, h, budget, tries, fill_first, hot_share)
                 offered[count] = fill[i]
                 count += 1
         offered = offered[:count]
+    return page_from_offers(lc, lo, size, c, sub, budget, offered)
+
+
+@njit(cache=True)
+def local_cum(score, lo, hi):
+    """Cumulative lookup score of keys lo..hi-1 from 0 (the same sums as numpy's cumsum)."""
+    lc = np.empty(hi - lo + 1)
+    lc[0] = 0.0
+    for i in range(hi - lo):
+        lc[i + 1] = lc[i] + score[lo + i]
+    return lc
+
+
+@njit(cache=True)
+def page_from_offers(lc, lo, size, c, sub, budget, offered):
+    """The root page of keys lo..lo+size-1 from keys offered in order (local ranks): the ones
+    kept while the page stays completable, then the cuts and moved keys of the gap plan."""
     chosen = choose_offered(offered, size, c, min(sub, size + 1), budget)
     nch = chosen.shape[0]
     # the gap plan (within._gap_plan): cuts per gap, then spare slots take remainders smallest first
