@@ -36,7 +36,14 @@ def frontier(plan: Plan, hist: Histogram, options: PlanOptions, points=FRONTIER_
                 within_polish_ops=options.within_polish_ops / len(points),
                 quick=True,
             )
-            point = plan_capacity(hist, plan.keys_per_page, plan.geometry, share, known_bounds=plan.bounds)
+            point = plan_capacity(
+                hist,
+                plan.keys_per_page,
+                plan.geometry,
+                share,
+                known_bounds=plan.bounds,
+                known_even=(plan.uniform, plan.uniform_cost),
+            )
         layout, cost, bound = point.recommended, point.recommended_cost, point.lower_bound
         if best is not None and best[1].expected_page_reads < cost.expected_page_reads:
             layout, cost = best  # a smaller budget's layout fits this one too

@@ -130,29 +130,35 @@ def plan_capacity(
     options: PlanOptions | None = None,
     on_step: Callable[[str], None] | None = None,
     known_bounds: dict | None = None,
+    known_even: tuple[Layout, Cost] | None = None,
 ) -> Plan:
     """Plan one capacity ``c``: exact when affordable, else near-optimal with a bound; every
     layout returned keeps within the budget of ``options.budget``. ``known_bounds``: the
-    budget-free lower bounds of this histogram and capacity, when already computed."""
+    budget-free lower bounds of this histogram and capacity, when already computed; ``known_even``:
+    the even split of this capacity and its cost on ``hist``, when already built and checked (the
+    frontier's points share the plan's)."""
     opts = options or PlanOptions()
     step = on_step or (lambda _s: None)
     fit = hist.smoothed(opts.smoothing)  # the weights the layout is fitted to
     t0 = time.perf_counter()
     shape = _structure(opts, geometry)
-    uni = shape.even_split(hist.n, c)
+    uni, uni_cost = known_even if known_even is not None else (shape.even_split(hist.n, c), None)
+    uni_cost = uni_cost or evaluate(uni, hist)
+    uni_reads = uni_cost.expected_page_reads if fit is hist else evaluate(uni, fit).expected_page_reads
     budget = plan_budget(opts.budget, uni, hist.n, c, shape)
     dual = dp_objective = None
     if hist.total <= 0:
         # nothing is looked up: every layout costs 0, so keep the layout the loader would build
         best, method, proven = uni, "no lookups: even split kept", True
     elif budget.max_pages is None and budget.max_height is None:
-        best, method, proven, dp_objective = _unlimited(shape, fit, c, uni, opts, step)
+        best, method, proven, dp_objective = _unlimited(shape, fit, c, uni, opts, step, uni_reads)
     else:
-        best, method, proven, dual = _within(shape, fit, c, uni, budget, opts, step)
+        best, method, proven, dual = _within(shape, fit, c, uni, budget, opts, step, uni_reads)
     best_cost = evaluate(best, hist)
     if opts.check:
         check_layout(best, budget)
-        check_layout(uni)
+        if known_even is None:
+            check_layout(uni)
     step("bounds")
     bounds = dict(known_bounds) if known_bounds is not None else shape.bounds(hist, c)
     bounds.pop("within_budget", None)
@@ -166,7 +172,7 @@ def plan_capacity(
         recommended=best,
         recommended_cost=best_cost,
         uniform=uni,
-        uniform_cost=evaluate(uni, hist),
+        uniform_cost=uni_cost,
         bounds=bounds,
         proven_optimal=proven,
         method=method,
@@ -190,7 +196,7 @@ def plan_budget(spec: BudgetSpec, uni: Layout, n: int, c: int, shape: ClassicTre
     return resolve(spec, uni, pages, height, note)
 
 
-def _rank(fit: Histogram, uni: Layout, candidates, step, budget: Budget | None = None) -> list:
+def _rank(fit: Histogram, uni: Layout, candidates, step, budget: Budget | None = None, uni_reads=None) -> list:
     """(reads, name, layout) of the even split and every candidate (within ``budget``), best first.
 
     Candidates are built and costed on one thread per core: the budgeted constructions are
@@ -203,7 +209,9 @@ def _rank(fit: Histogram, uni: Layout, candidates, step, budget: Budget | None =
             return evaluate(cand, fit).expected_page_reads, name, cand
         return None
 
-    ranked = [(evaluate(uni, fit).expected_page_reads, "even split (nothing better found)", uni)]
+    if uni_reads is None:
+        uni_reads = evaluate(uni, fit).expected_page_reads
+    ranked = [(uni_reads, "even split (nothing better found)", uni)]
     with ThreadPoolExecutor(max_workers=RANK_THREADS) as pool:
         jobs = [(name, pool.submit(one, name, build)) for name, build in candidates]
         for name, job in jobs:
@@ -230,7 +238,7 @@ def _improve(best: tuple, ranked: list, uni: Layout, fit: Histogram, step, label
     return best
 
 
-def _unlimited(shape, fit: Histogram, c: int, uni: Layout, opts: PlanOptions, step):
+def _unlimited(shape, fit: Histogram, c: int, uni: Layout, opts: PlanOptions, step, uni_reads=None):
     """No budget: the unconstrained optimum, exact when affordable (the behaviour before budgets)."""
     seconds, mem = shape.exact_cost(fit, c)
     if seconds <= opts.exact_seconds and mem <= opts.exact_max_bytes:
@@ -238,7 +246,7 @@ def _unlimited(shape, fit: Histogram, c: int, uni: Layout, opts: PlanOptions, st
         res = shape.solve_exact(fit, c)
         method = "exact DP" + (f" on smoothed weights (alpha {opts.smoothing:g})" if opts.smoothing > 0 else "")
         return res.layout, method, opts.smoothing <= 0, (res.objective if opts.smoothing <= 0 else None)
-    ranked = _rank(fit, uni, shape.near(fit, c, opts.exact_seconds), step)
+    ranked = _rank(fit, uni, shape.near(fit, c, opts.exact_seconds), step, uni_reads=uni_reads)
     best = ranked[0]
     if opts.polish_ops > 0:
         best = _improve(
@@ -261,7 +269,7 @@ def _unlimited(shape, fit: Histogram, c: int, uni: Layout, opts: PlanOptions, st
     return best[2], best[1], False, None
 
 
-def _within(shape, fit: Histogram, c: int, uni: Layout, budget: Budget, opts: PlanOptions, step):
+def _within(shape, fit: Histogram, c: int, uni: Layout, budget: Budget, opts: PlanOptions, step, uni_reads=None):
     """Best layout found within the budget: (layout, method, proven, dual bound or None)."""
     n = fit.n
     height = budget.max_height if budget.max_height is not None else min(n, budget.max_pages or n)
@@ -273,7 +281,8 @@ def _within(shape, fit: Histogram, c: int, uni: Layout, budget: Budget, opts: Pl
         method = "exact DP within the budget" if proven else "exact DP with a price per page (best point found)"
         return res.layout, method, proven, res.dual_bound
     quick = opts.quick and n > LOOSE_MAX_KEYS
-    ranked = _rank(fit, uni, _budget_candidates(shape, fit, c, uni, budget, opts, quick), step, budget)
+    candidates = _budget_candidates(shape, fit, c, uni, budget, opts, quick)
+    ranked = _rank(fit, uni, candidates, step, budget, uni_reads)
     best = ranked[0]
     if opts.within_polish_ops > 0 and not quick:
 

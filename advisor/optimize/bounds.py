@@ -123,7 +123,7 @@ def _root_runs(w: np.ndarray, c: int, heavy: int, ws: np.ndarray | None = None) 
     ws = np.sort(w)[::-1] if ws is None else ws
     top = float(ws[:c].sum())
     rest_cum = np.concatenate([[0.0], np.cumsum(ws[c:])])
-    N = np.minimum(runs_weight_upper(w, c, heavy), top)  # no c keys outweigh the c heaviest
+    N = np.minimum(runs_weight_upper(w, c, heavy, ws), top)  # no c keys outweigh the c heaviest
     out = np.inf
     for r in range(1, c + 1):
         if N[r] == -np.inf:
@@ -143,14 +143,15 @@ def _pack_holes(cum: np.ndarray, c: int, r: int) -> float:
     return cost
 
 
-def runs_weight_upper(w: np.ndarray, c: int, heavy: int) -> np.ndarray:
-    """U[r] >= the most weight of at most c keys forming exactly r runs (r = 0..c; -inf: none)."""
+def runs_weight_upper(w: np.ndarray, c: int, heavy: int, ws: np.ndarray | None = None) -> np.ndarray:
+    """U[r] >= the most weight of at most c keys forming exactly r runs (r = 0..c; -inf: none).
+    ``ws``: w sorted heaviest first, when already at hand."""
     n = w.size
     m = min(n, heavy)
     if m < n:
         # the m heaviest keys, ties by rank (as a stable sort would take them), and the next
         # weight, by one partition instead of a full sort
-        tau = float(np.partition(w, n - m - 1)[n - m - 1])
+        tau = float(ws[m] if ws is not None else np.partition(w, n - m - 1)[n - m - 1])
         above = np.flatnonzero(w > tau)
         keep = np.sort(np.concatenate([above, np.flatnonzero(w == tau)[: m - above.size]]))
     else:
