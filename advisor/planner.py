@@ -149,12 +149,17 @@ def plan_capacity(
     dual = dp_objective = None
     if hist.total <= 0:
         # nothing is looked up: every layout costs 0, so keep the layout the loader would build
-        best, method, proven = uni, "no lookups: even split kept", True
+        best, method, proven, fit_cost = uni, "no lookups: even split kept", True, None
     elif budget.max_pages is None and budget.max_height is None:
-        best, method, proven, dp_objective = _unlimited(shape, fit, c, uni, opts, step, uni_reads)
+        best, method, proven, dp_objective, fit_cost = _unlimited(shape, fit, c, uni, opts, step, uni_reads)
     else:
-        best, method, proven, dual = _within(shape, fit, c, uni, budget, opts, step, uni_reads)
-    best_cost = evaluate(best, hist)
+        best, method, proven, dual, fit_cost = _within(shape, fit, c, uni, budget, opts, step, uni_reads)
+    if best is uni:
+        best_cost = uni_cost
+    elif fit is hist and fit_cost is not None:
+        best_cost = fit_cost  # costed on these very weights while ranking
+    else:
+        best_cost = evaluate(best, hist)
     if opts.check:
         check_layout(best, budget)
         if known_even is None:
@@ -197,7 +202,8 @@ def plan_budget(spec: BudgetSpec, uni: Layout, n: int, c: int, shape: ClassicTre
 
 
 def _rank(fit: Histogram, uni: Layout, candidates, step, budget: Budget | None = None, uni_reads=None) -> list:
-    """(reads, name, layout) of the even split and every candidate (within ``budget``), best first.
+    """(reads, name, layout, cost) of the even split (cost None) and every candidate (within
+    ``budget``), best first.
 
     Candidates are built and costed on one thread per core: the budgeted constructions are
     compiled without the GIL and numpy releases it in the evaluator's large operations. The
@@ -206,12 +212,13 @@ def _rank(fit: Histogram, uni: Layout, candidates, step, budget: Budget | None =
     def one(name: str, build):
         cand = build()
         if budget is None or budget.allows(cand):
-            return evaluate(cand, fit).expected_page_reads, name, cand
+            cost = evaluate(cand, fit)
+            return cost.expected_page_reads, name, cand, cost
         return None
 
     if uni_reads is None:
         uni_reads = evaluate(uni, fit).expected_page_reads
-    ranked = [(uni_reads, "even split (nothing better found)", uni)]
+    ranked = [(uni_reads, "even split (nothing better found)", uni, None)]
     with ThreadPoolExecutor(max_workers=RANK_THREADS) as pool:
         jobs = [(name, pool.submit(one, name, build)) for name, build in candidates]
         for name, job in jobs:
@@ -225,16 +232,16 @@ def _rank(fit: Histogram, uni: Layout, candidates, step, budget: Budget | None =
 
 def _improve(best: tuple, ranked: list, uni: Layout, fit: Histogram, step, label: str, suffix: str, refine) -> tuple:
     """Apply ``refine`` to the top candidates (the best before need not be the best after)."""
-    for _value, name, cand in ranked[:POLISH_TOP]:
+    for _value, name, cand, _cost in ranked[:POLISH_TOP]:
         if cand is uni:
             continue
         step(f"{label} ({name})")
         better = refine(cand)
         if better is None:
             continue
-        v = evaluate(better, fit).expected_page_reads
-        if v < best[0]:
-            best = (v, name + suffix, better)
+        cost = evaluate(better, fit)
+        if cost.expected_page_reads < best[0]:
+            best = (cost.expected_page_reads, name + suffix, better, cost)
     return best
 
 
@@ -245,7 +252,7 @@ def _unlimited(shape, fit: Histogram, c: int, uni: Layout, opts: PlanOptions, st
         step("exact")
         res = shape.solve_exact(fit, c)
         method = "exact DP" + (f" on smoothed weights (alpha {opts.smoothing:g})" if opts.smoothing > 0 else "")
-        return res.layout, method, opts.smoothing <= 0, (res.objective if opts.smoothing <= 0 else None)
+        return res.layout, method, opts.smoothing <= 0, (res.objective if opts.smoothing <= 0 else None), None
     ranked = _rank(fit, uni, shape.near(fit, c, opts.exact_seconds), step, uni_reads=uni_reads)
     best = ranked[0]
     if opts.polish_ops > 0:
@@ -263,14 +270,15 @@ def _unlimited(shape, fit: Histogram, c: int, uni: Layout, opts: PlanOptions, st
         step("exact re-cuts of page keys")
         cut = shape.recut(best[2], fit, opts.recut_ops)
         if cut is not None:
-            v = evaluate(cut, fit).expected_page_reads
-            if v < best[0]:
-                best = (v, best[1] + " + exact re-cuts", cut)
-    return best[2], best[1], False, None
+            cost = evaluate(cut, fit)
+            if cost.expected_page_reads < best[0]:
+                best = (cost.expected_page_reads, best[1] + " + exact re-cuts", cut, cost)
+    return best[2], best[1], False, None, best[3]
 
 
 def _within(shape, fit: Histogram, c: int, uni: Layout, budget: Budget, opts: PlanOptions, step, uni_reads=None):
-    """Best layout found within the budget: (layout, method, proven, dual bound or None)."""
+    """Best layout found within the budget: (layout, method, proven, dual bound or None, its cost
+    on ``fit`` or None)."""
     n = fit.n
     height = budget.max_height if budget.max_height is not None else min(n, budget.max_pages or n)
     seconds, mem, feasible = shape.within_exact_cost(n, c, height)
@@ -279,7 +287,7 @@ def _within(shape, fit: Histogram, c: int, uni: Layout, budget: Budget, opts: Pl
         res = shape.solve_within(fit, c, budget, height)
         proven = res.proven and opts.smoothing <= 0
         method = "exact DP within the budget" if proven else "exact DP with a price per page (best point found)"
-        return res.layout, method, proven, res.dual_bound
+        return res.layout, method, proven, res.dual_bound, None
     quick = opts.quick and n > LOOSE_MAX_KEYS
     candidates = _budget_candidates(shape, fit, c, uni, budget, opts, quick)
     ranked = _rank(fit, uni, candidates, step, budget, uni_reads)
@@ -297,10 +305,10 @@ def _within(shape, fit: Histogram, c: int, uni: Layout, budget: Budget, opts: Pl
         step("exact re-cuts of page keys within the budget")
         cut = shape.recut_within(best[2], fit, budget, opts.within_recut_ops)
         if cut is not None and budget.allows(cut):
-            v = evaluate(cut, fit).expected_page_reads
-            if v < best[0]:
-                best = (v, best[1] + " + exact re-cuts", cut)
-    return best[2], best[1], False, None
+            cost = evaluate(cut, fit)
+            if cost.expected_page_reads < best[0]:
+                best = (cost.expected_page_reads, best[1] + " + exact re-cuts", cut, cost)
+    return best[2], best[1], False, None, best[3]
 
 
 def _budget_candidates(shape, fit: Histogram, c: int, uni: Layout, budget: Budget, opts: PlanOptions, quick: bool):
