@@ -31,6 +31,7 @@ import numpy as np
 
 from .errors import LayoutInvalid
 from .histogram import Histogram
+from .layout_kernel import depths_and_weight, end_pages_kernel, ordered_depths
 
 STRUCTURES = ("btree", "bplus")
 
@@ -111,7 +112,11 @@ class LayoutBuilder:
 
 
 def _depths(parent: np.ndarray) -> np.ndarray:
-    """Depths by repeated relaxation; one pass per level, each pass vectorised."""
+    """Depths in one compiled pass when parents precede children (every layout the planners
+    build), else by repeated relaxation, one vectorised pass per level."""
+    depth = ordered_depths(np.ascontiguousarray(parent, dtype=np.int64))
+    if depth.shape[0] == parent.shape[0]:
+        return depth
     depth = np.ones(parent.shape[0], dtype=np.int64)
     if parent.size <= 1:
         return depth
@@ -298,15 +303,15 @@ def evaluate(layout: Layout, hist: Histogram) -> Cost:
         return Cost(0.0, 0, 0, np.zeros(0), np.zeros(0, dtype=np.int64), gd)
     depth = layout.depths()
     height = int(depth.max())
+    key_page, gap_page = end_pages(layout, depth)
     # per-key depths kept with every plan: int16 (signed, so differences stay exact) while they fit
-    depth = depth.astype(np.int16 if height < 2**15 else np.int32)
-    key_page, gap_page = end_pages(layout)
-    key_depth, gap_depth = depth[key_page], depth[gap_page]
+    narrow = np.int16 if height < 2**15 else np.int32
+    key_depth, gap_depth = np.empty(n, dtype=narrow), np.empty(n + 1, dtype=narrow)
+    by_depth = np.zeros(height + 1)
+    depths_and_weight(key_page, gap_page, depth, hist.p, hist.q, key_depth, gap_depth, by_depth)
     total = hist.total
-    by_depth = np.bincount(key_depth, weights=hist.p, minlength=height + 1)
-    by_depth += np.bincount(gap_depth, weights=hist.q, minlength=height + 1)
     if total > 0:
-        reads = float((hist.p @ key_depth + hist.q @ gap_depth) / total)
+        reads = float(np.arange(height + 1) @ by_depth / total)
         shares = by_depth[1:] / total
     else:
         reads, shares = 0.0, np.zeros(height)
@@ -337,29 +342,23 @@ def mean_fill(layout: Layout) -> float:
     return float(sizes.sum() / (layout.pages * layout.capacity))
 
 
-def end_pages(layout: Layout) -> tuple[np.ndarray, np.ndarray]:
+def end_pages(layout: Layout, depth: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Page where each hit (per key) and each miss (per gap) stops: the last page it reads.
 
     Classic B-tree: a key's own page; a gap's is the deeper of its neighbours' pages (one is an
     ancestor of the other or they share a page). B+-tree: a key's leaf; a gap's is the leaf of
-    the key before it (the first leaf for gap 0).
+    the key before it (the first leaf for gap 0). ``depth``: the pages' depths, when already at hand.
     """
     n = layout.n_keys
     key_page = np.empty(n, dtype=np.int64)
-    owner = np.repeat(np.arange(layout.pages), layout.page_sizes())
-    if layout.structure == "bplus" and layout.pages:
-        in_leaf = layout.leaf[owner]
-        key_page[layout.page_keys[in_leaf]] = owner[in_leaf]
-        gap_page = np.concatenate([key_page[:1], key_page]) if n else np.zeros(1, dtype=np.int64)
-        return key_page, gap_page
-    key_page[layout.page_keys] = owner
-    if n == 0:
-        return key_page, np.zeros(1, dtype=np.int64)
-    depth = layout.depths()[key_page]
     gap_page = np.empty(n + 1, dtype=np.int64)
-    gap_page[0], gap_page[n] = key_page[0], key_page[n - 1]
-    deeper_left = depth[:-1] >= depth[1:]
-    gap_page[1:n] = np.where(deeper_left, key_page[:-1], key_page[1:])
+    bplus = layout.structure == "bplus"
+    leaf = layout.leaf if bplus and layout.leaf is not None else np.zeros(0, dtype=bool)
+    if depth is None:
+        depth = layout.depths() if not bplus and n else np.zeros(0, dtype=np.int64)
+    start = np.ascontiguousarray(layout.page_start, dtype=np.int64)
+    keys = np.ascontiguousarray(layout.page_keys, dtype=np.int64)
+    end_pages_kernel(start, keys, n, bplus, leaf, depth, key_page, gap_page)
     return key_page, gap_page
 
 
