@@ -26,6 +26,7 @@ from .histogram import Histogram
 from .holdout import holdout_rows
 from .layout import evaluate
 from .logreads import load_replay, load_scans, load_split, ranked_keys, truncated_separator_bytes
+from .optimize.bounds import forget_sorted_key_weights
 from .pagesize import PROFILES, StorageProfile, default_pool_bytes, page_size_table
 from .planner import Plan, PlanOptions, plan_capacity
 from .result import HoldoutResult, PlanResult, RunResult
@@ -100,6 +101,7 @@ def advise(
     for idx, (c, g) in enumerate(targets):
         step = (lambda s, i=idx: on_plan(i, s)) if on_plan else None
         plans.append(plan_capacity(hist, c, g, options, step))
+    forget_sorted_key_weights(hist)  # every capacity's bounds are known: free their sorted weights
     return plans
 
 

@@ -281,8 +281,6 @@ class Cost:
     pages: int
     height: int
     answered_at_depth: np.ndarray  # share of looked-up weight answered at depth 1, 2, ...
-    key_depth: np.ndarray  # (n,) pages read by a hit on each key
-    gap_depth: np.ndarray  # (n + 1,) pages read by a miss in each gap
     p99_page_reads: int = 0  # reads of the 99th-percentile lookup (weighted by the histogram)
     max_page_reads: int = 0  # most reads of any lookup the histogram gives weight
     max_page_reads_any: int = 0  # most reads of any key or gap at all (looked up or not)
@@ -299,16 +297,12 @@ def evaluate(layout: Layout, hist: Histogram) -> Cost:
         raise LayoutInvalid(f"layout covers {layout.n_keys} keys, histogram has {hist.n}")
     n = hist.n
     if n == 0:
-        gd = np.zeros(1, dtype=np.int64)
-        return Cost(0.0, 0, 0, np.zeros(0), np.zeros(0, dtype=np.int64), gd)
+        return Cost(0.0, 0, 0, np.zeros(0))
     depth = layout.depths()
     height = int(depth.max())
     key_page, gap_page = end_pages(layout, depth)
-    # per-key depths kept with every plan: int16 (signed, so differences stay exact) while they fit
-    narrow = np.int16 if height < 2**15 else np.int32
-    key_depth, gap_depth = np.empty(n, dtype=narrow), np.empty(n + 1, dtype=narrow)
     by_depth = np.zeros(height + 1)
-    depths_and_weight(key_page, gap_page, depth, hist.p, hist.q, key_depth, gap_depth, by_depth)
+    worst_any = int(depths_and_weight(key_page, gap_page, depth, hist.p, hist.q, by_depth))
     total = hist.total
     if total > 0:
         reads = float(np.arange(height + 1) @ by_depth / total)
@@ -316,8 +310,7 @@ def evaluate(layout: Layout, hist: Histogram) -> Cost:
     else:
         reads, shares = 0.0, np.zeros(height)
     p99, worst = _tail(shares)
-    worst_any = int(max(key_depth.max(), gap_depth.max()))
-    return Cost(reads, layout.pages, height, shares, key_depth, gap_depth, p99, worst, worst_any)
+    return Cost(reads, layout.pages, height, shares, p99, worst, worst_any)
 
 
 def _tail(shares: np.ndarray) -> tuple[int, int]:

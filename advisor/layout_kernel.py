@@ -55,13 +55,16 @@ def end_pages_kernel(page_start, page_keys, n, bplus, leaf, depth, key_page, gap
 
 
 @njit(cache=True, nogil=True)
-def depths_and_weight(key_page, gap_page, depth, p, q, key_depth, gap_depth, by_depth):
-    """Fill each key's and gap's depth and add the lookup weight answered at each depth."""
+def depths_and_weight(key_page, gap_page, depth, p, q, by_depth):
+    """Add the lookup weight answered at each depth into ``by_depth``; returns the deepest end
+    page of any key or gap (looked up or not)."""
+    deepest = 0
     for k in range(key_page.shape[0]):
         d = depth[key_page[k]]
-        key_depth[k] = d
+        deepest = max(deepest, d)
         by_depth[d] += p[k]
     for g in range(gap_page.shape[0]):
         d = depth[gap_page[g]]
-        gap_depth[g] = d
+        deepest = max(deepest, d)
         by_depth[d] += q[g]
+    return deepest

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import os
 import time
+from collections import deque
 from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
@@ -202,8 +203,8 @@ def plan_budget(spec: BudgetSpec, uni: Layout, n: int, c: int, shape: ClassicTre
 
 
 def _rank(fit: Histogram, uni: Layout, candidates, step, budget: Budget | None = None, uni_reads=None) -> list:
-    """(reads, name, layout, cost) of the even split (cost None) and every candidate (within
-    ``budget``), best first.
+    """(reads, name, layout, cost) of the best POLISH_TOP + 1 of the even split (cost None) and
+    the candidates (within ``budget``), best first.
 
     Candidates are built and costed on one thread per core: the budgeted constructions are
     compiled without the GIL and numpy releases it in the evaluator's large operations. The
@@ -220,13 +221,16 @@ def _rank(fit: Histogram, uni: Layout, candidates, step, budget: Budget | None =
         uni_reads = evaluate(uni, fit).expected_page_reads
     ranked = [(uni_reads, "even split (nothing better found)", uni, None)]
     with ThreadPoolExecutor(max_workers=RANK_THREADS) as pool:
-        jobs = [(name, pool.submit(one, name, build)) for name, build in candidates]
-        for name, job in jobs:
+        jobs = deque((name, pool.submit(one, name, build)) for name, build in candidates)
+        while jobs:
+            name, job = jobs.popleft()  # the future is let go with its result once read
             step(name)
             found = job.result()
+            del job
             if found is not None:
                 ranked.append(found)
-    ranked.sort(key=lambda x: x[0])
+                # only the best few are refined: the others' layouts are let go at once (memory)
+                ranked = sorted(ranked, key=lambda x: x[0])[: POLISH_TOP + 1]
     return ranked
 
 

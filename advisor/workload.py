@@ -59,6 +59,21 @@ def open_database(path: str | os.PathLike) -> duckdb.DuckDBPyConnection:
     return con
 
 
+def release_memory(con: duckdb.DuckDBPyConnection) -> None:
+    """Hand DuckDB's freed working memory back to the operating system.
+
+    After a large aggregation DuckDB's allocator keeps its peak (about 130 MB at a million keys
+    with a 10M-row log) until the memory limit changes; lowering the limit to what is in use and
+    restoring it flushes that memory and evicts nothing still needed."""
+    try:
+        limit = con.execute("SELECT current_setting('memory_limit')").fetchall()[0][0]
+        used = con.execute("SELECT coalesce(sum(memory_usage_bytes), 0) FROM duckdb_memory()").fetchall()[0][0]
+        run_sql(con, f"SET memory_limit = '{int(used) + 64 * 2**20}B'")
+        run_sql(con, f"SET memory_limit = {sql_string(limit)}")
+    except duckdb.Error:
+        pass  # only a saving; the run goes on with the memory DuckDB holds
+
+
 def _first_line(text: str) -> str:
     return text.strip().splitlines()[0] if text.strip() else text
 
@@ -216,7 +231,9 @@ def load_workload(
             if log is not None:
                 raise SettingInvalid("give the log as --log or as --log-sql, not both")
             log = query_log(con, log_query)
-        return _load(con, table, key, log, log_column, count_column, distinct_keys)
+        workload = _load(con, table, key, log, log_column, count_column, distinct_keys)
+        release_memory(con)
+        return workload
     except (AdvisorError, KeyboardInterrupt):
         con.close()
         raise

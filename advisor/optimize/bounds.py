@@ -119,6 +119,11 @@ def root_runs_bound(hist: Histogram, c: int, heavy: int | None = None) -> float:
     )
 
 
+def forget_sorted_key_weights(hist: Histogram) -> None:
+    """Drop the sorted weights :func:`sorted_key_weights` keeps (n floats per alpha)."""
+    hist.__dict__.pop("_sorted_key_weights", None)
+
+
 def _root_runs(w: np.ndarray, c: int, heavy: int, ws: np.ndarray | None = None) -> float:
     ws = np.sort(w)[::-1] if ws is None else ws
     top = float(ws[:c].sum())
