@@ -4,7 +4,8 @@ Offering a key to a root page asks: with this key, can the page still be complet
 slots and page budget? The plain version (``within._RootState``) answers in O(c) numpy work per
 key, a per-call overhead that dominated the planner (2 million calls on the demo). Here the same
 arithmetic runs compiled, and the "spare slots save the most pages" greedy is a query on two
-Fenwick trees (counts and summed remainders by remainder size), so each offer costs O(log c).
+Fenwick trees (counts and summed remainders by remainder size), so each offer costs O(log c); a trial offer reads the trees with its changes applied on the fly
+and only a kept key updates them.
 The tests check it against the plain version; ``benchmarks/bench_kernels.py`` measures both.
 """
 
@@ -16,8 +17,8 @@ from numba import njit
 
 @njit(cache=True)
 def _cuts(g, sub):
-    if g <= 0:
-        return 0
+    if g <= sub:
+        return 0  # fits below one slot (also g <= 0)
     return (g + 1 + sub) // (sub + 1) - 1
 
 
@@ -46,21 +47,42 @@ def _add(tree, i, v):
 
 
 @njit(cache=True)
-def _saved(cnt_tree, cost_tree, count, spare, top_bit):
-    """Most runs whose remainders fit in ``spare`` slots, smallest first (Fenwick descent)."""
+def _saved_if(cnt_tree, cost_tree, count, spare, top_bit, r1, s1, r2, s2, r3, s3):
+    """:func:`_saved` as if remainders r1, r2, r3 (0: none) were added s1, s2, s3 times (+1 or
+    -1), without touching the trees: each Fenwick node read in the descent is corrected by the
+    changes that fall in the range it covers. A rejected offer then costs no tree update."""
     n = cost_tree.shape[0]
     pos, used, taken = 0, 0, 0
     step = top_bit
     while step:
         nxt = pos + step
-        if nxt < n and used + cost_tree[nxt] <= spare:
-            pos = nxt
-            used += cost_tree[nxt]
-            taken += cnt_tree[nxt]
+        if nxt < n:
+            cost, cnt = cost_tree[nxt], cnt_tree[nxt]
+            if pos < r1 <= nxt:
+                cost += s1 * r1
+                cnt += s1
+            if pos < r2 <= nxt:
+                cost += s2 * r2
+                cnt += s2
+            if pos < r3 <= nxt:
+                cost += s3 * r3
+                cnt += s3
+            if used + cost <= spare:
+                pos = nxt
+                used += cost
+                taken += cnt
         step >>= 1
     r = pos + 1  # the first remainder size not taken whole
-    if r < n and count[r] > 0:
-        taken += min(count[r], (spare - used) // r)
+    if r < n:
+        left = count[r]
+        if r1 == r:
+            left += s1
+        if r2 == r:
+            left += s2
+        if r3 == r:
+            left += s3
+        if left > 0:
+            taken += min(left, (spare - used) // r)
     return taken
 
 
@@ -151,16 +173,17 @@ def choose_offered(order, size, c, sub, budget):
         if spare < 0:
             continue
         new_pages = pages - _pages(g, c, sub) + _pages(left, c, sub) + _pages(right, c, sub)
-        _tally(cnt_tree, cost_tree, count, g, c, sub, -1)
-        _tally(cnt_tree, cost_tree, count, left, c, sub, 1)
-        _tally(cnt_tree, cost_tree, count, right, c, sub, 1)
-        if new_pages - _saved(cnt_tree, cost_tree, count, spare, top_bit) + 1 <= budget:
+        fits = new_pages + 1 <= budget  # fits even before spare slots save any page
+        if not fits:
+            rg, rl, rr = _rem(g, c, sub), _rem(left, c, sub), _rem(right, c, sub)
+            saved = _saved_if(cnt_tree, cost_tree, count, spare, top_bit, rg, -1, rl, 1, rr, 1)
+            fits = new_pages - saved + 1 <= budget
+        if fits:
+            _tally(cnt_tree, cost_tree, count, g, c, sub, -1)
+            _tally(cnt_tree, cost_tree, count, left, c, sub, 1)
+            _tally(cnt_tree, cost_tree, count, right, c, sub, 1)
             _add(kept, px, 1)
             chosen[nch] = x
             nch += 1
             cuts, pages = new_cuts, new_pages
-        else:  # undo the trial
-            _tally(cnt_tree, cost_tree, count, left, c, sub, -1)
-            _tally(cnt_tree, cost_tree, count, right, c, sub, -1)
-            _tally(cnt_tree, cost_tree, count, g, c, sub, 1)
     return np.sort(chosen[:nch])
