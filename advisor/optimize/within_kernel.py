@@ -4,9 +4,9 @@ Offering a key to a root page asks: with this key, can the page still be complet
 slots and page budget? The plain version (``within._RootState``) answers in O(c) numpy work per
 key, a per-call overhead that dominated the planner (2 million calls on the demo). Here the same
 arithmetic runs compiled, and the "spare slots save the most pages" greedy is a query on two
-Fenwick trees (counts and summed remainders by remainder size), so each offer costs O(log c); a trial offer reads the trees with its changes applied on the fly
-and only a kept key updates them.
-The tests check it against the plain version; ``benchmarks/bench_kernels.py`` measures both.
+Fenwick trees (counts and summed remainders by remainder size), so each offer costs O(log c);
+a trial offer reads the trees with its changes applied on the fly and only a kept key updates
+them. The tests check it against the plain version; ``benchmarks/bench_kernels.py`` measures both.
 """
 
 from __future__ import annotations
