@@ -54,7 +54,7 @@ from .optimize.constrained import (
 from .optimize.recut import recut
 from .optimize.refine import polish_within
 from .optimize.uniform import min_height
-from .optimize.within import fewest_pages, within_budget_layout
+from .optimize.within import PILOT_MAX_KEYS, fewest_pages, pilot_layout, within_budget_layout
 
 BPLUS_OPS_PER_SECOND = 3e8  # element operations of the float64 B+ DP per second, measured on this machine kind
 BPLUS_WITHIN_OPS_PER_SECOND = 1e8  # the budgeted B+ DP (plain numpy), measured: 300 keys, F = 8, ~0.25 s a run
@@ -148,6 +148,11 @@ class ClassicTree:
                     f"a quarter of each root for hot keys, then even cuts, within the budget ({h} levels)",
                     lambda h=h: within_budget_layout(fit, c, pages, h, 2, hot_share=0.25),
                 )
+        if not quick and n <= PILOT_MAX_KEYS:
+            yield (
+                f"each page's keys chosen by trial completions, within the budget ({top} levels)",
+                lambda: pilot_layout(fit, c, pages, top, top),
+            )
 
     def bounds(self, hist: Histogram, c: int) -> dict[str, float]:
         return lower_bounds(hist, c)

@@ -22,7 +22,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
-from .within_kernel import choose_offered
+from .within_kernel import argsort_stable, choose_offered, sorted_copy
 
 SATURATED = 1 << 40
 
@@ -83,7 +83,7 @@ def share_spare_kernel(slack, weights, need, least_useful):
             out[t] = int(slack * weights[t] / total)
             given += out[t]
     left = slack - given
-    order = np.argsort(-weights, kind="mergesort")
+    order = argsort_stable(-weights)
     for i in range(m):
         if left <= 0:
             break
@@ -97,7 +97,7 @@ def share_spare_kernel(slack, weights, need, least_useful):
 @njit(cache=True)
 def _first_offers(offered, count):
     """offered[:count] with repeats removed, each key kept at its first offer."""
-    idx = np.argsort(offered[:count], kind="mergesort")
+    idx = argsort_stable(offered[:count])
     keep = np.ones(count, dtype=np.bool_)
     for i in range(1, count):
         if offered[idx[i]] == offered[idx[i - 1]]:
@@ -122,7 +122,7 @@ def root_page(score, ranked, lo, hi, c, h, budget, tries, fill_first, hot_share)
     n_hot = 0
     while n_hot < k and score[ranked[n_hot]] > 0:
         n_hot += 1
-    top_sorted = np.sort(ranked[:k] - lo)
+    top_sorted = sorted_copy(ranked[:k].astype(np.int64) - lo)
     m = max(1, min(sub // c, (size - c) // ((c + 1) * c)))
     stride = m * c + 1
     fill = np.empty(c, dtype=np.int64)
@@ -173,6 +173,75 @@ def root_page(score, ranked, lo, hi, c, h, budget, tries, fill_first, hot_share)
 
 
 @njit(cache=True)
+def carve_root_page(score, ranked, lo, hi, c, h, budget, share):
+    """Root keys of lo..hi-1 that carve full pages out of the keys beside the hottest ones.
+
+    The hottest ``share`` x c keys are offered first; then, from each run of them outward, keys
+    at strides of c + 1 (each such key leaves exactly one full page of c keys between it and the
+    previous one: a hot neighbourhood gets pages of its own one level down instead of sharing a
+    deep subtree), most valuable page first; then the other hot keys and the aligned fillers."""
+    sub = capacity_saturated(c, h - 1)
+    size = hi - lo
+    lc = local_cum(score, lo, hi)
+    k = min(size, 4 * c)
+    n_hot = 0
+    while n_hot < k and score[ranked[n_hot]] > 0:
+        n_hot += 1
+    first = min(max(1, int(share * c)), n_hot)
+    held = sorted_copy(ranked[:first].astype(np.int64) - lo)
+    runs = 1 if first > 0 else 0
+    for i in range(1, first):
+        if held[i] > held[i - 1] + 1:
+            runs += 1
+    per_run = max(1, c // max(runs, 1))
+    cand = np.empty(2 * per_run * max(runs, 1), dtype=np.int64)
+    value = np.empty(cand.shape[0])
+    nc = 0
+    i = 0
+    while i < first:
+        j = i
+        while j + 1 < first and held[j + 1] == held[j] + 1:
+            j += 1
+        s0, e0 = held[i], held[j]
+        for step in range(1, per_run + 1):
+            x = e0 + step * (c + 1)
+            if x >= size:
+                break
+            cand[nc], value[nc] = x, lc[x] - lc[x - c]
+            nc += 1
+        for step in range(1, per_run + 1):
+            x = s0 - step * (c + 1)
+            if x < 0:
+                break
+            cand[nc], value[nc] = x, lc[x + c + 1] - lc[x + 1]
+            nc += 1
+        i = j + 1
+    by_key = argsort_stable(cand[:nc])
+    by_value = by_key[argsort_stable(-value[:nc][by_key])]  # most valuable, ties by key
+    m = max(1, min(sub // c, (size - c) // ((c + 1) * c)))
+    stride = m * c + 1
+    offered = np.empty(n_hot + nc + c, dtype=np.int64)
+    count = 0
+    for i in range(first):
+        offered[count] = ranked[i] - lo
+        count += 1
+    for i in range(nc):
+        offered[count] = cand[by_value[i]]
+        count += 1
+    for i in range(first, n_hot):
+        offered[count] = ranked[i] - lo
+        count += 1
+    x = stride - 1
+    for _ in range(c):
+        if x >= size:
+            break
+        offered[count] = x
+        count += 1
+        x += stride
+    return page_from_offers(lc, lo, size, c, sub, budget, _first_offers(offered, count))
+
+
+@njit(cache=True)
 def local_cum(score, lo, hi):
     """Cumulative lookup score of keys lo..hi-1 from 0 (the same sums as numpy's cumsum)."""
     lc = np.empty(hi - lo + 1)
@@ -218,7 +287,7 @@ def page_from_offers(lc, lo, size, c, sub, budget, offered):
             run_ids[n_runs] = t
             rems[n_runs] = r if r else c
             n_runs += 1
-    order = np.argsort(rems[:n_runs], kind="mergesort")  # by remainder, ties by position
+    order = argsort_stable(rems[:n_runs])  # by remainder, ties by position
     moved = np.zeros(nch + 1, dtype=np.int64)
     used = 0
     taken = 0
@@ -251,7 +320,7 @@ def page_from_offers(lc, lo, size, c, sub, budget, offered):
             nk += 1
         if cuts[t]:
             nk = cut_positions(lc, a + r if left_end else a, g - r, cuts[t], c, sub, keys, nk)
-    out = np.sort(keys[:nk])
+    out = sorted_copy(keys[:nk])
     return out + lo
 
 
@@ -262,79 +331,213 @@ def _grown(a, size):
     return out
 
 
+@njit(cache=True)
+def children_of(keys, lo, hi, c, budget, cum):
+    """Child runs of a page with ``keys`` over lo..hi-1 (start, end, page budget each): every run
+    gets the fewest pages it needs, and the page's spare pages are shared by lookup weight."""
+    nk = keys.shape[0]
+    kids = nk + 1
+    k_start = np.empty(kids, dtype=np.int64)
+    k_end = np.empty(kids, dtype=np.int64)
+    need = np.empty(kids, dtype=np.int64)
+    weight = np.empty(kids)
+    need_sum = 0
+    for t in range(kids):
+        k_start[t] = lo if t == 0 else keys[t - 1] + 1
+        k_end[t] = keys[t] if t < nk else hi
+        need[t] = _ceil_div(k_end[t] - k_start[t], c)
+        need_sum += need[t]
+        weight[t] = cum[k_end[t]] - cum[k_start[t]]
+    share = share_spare_kernel(budget - 1 - need_sum, weight, need, 2)
+    return k_start, k_end, need + share
+
+
+@njit(cache=True)
+def split_ranked(mine, keys, k_start, k_end, out, at):
+    """Write the children's keys, each child's hottest first, from this range's ranked keys
+    ``mine`` (a stable split) into out[at:], child after child; returns where each starts."""
+    kids = keys.shape[0] + 1
+    fill_at = np.empty(kids, dtype=np.int64)
+    for t in range(kids):
+        fill_at[t] = at
+        at += k_end[t] - k_start[t]
+    first = fill_at.copy()
+    nk = keys.shape[0]
+    for i in range(mine.shape[0]):
+        x = mine[i]
+        t = np.searchsorted(keys, x)
+        if t < nk and keys[t] == x:
+            continue
+        out[fill_at[t]] = x
+        fill_at[t] += 1
+    return first
+
+
+@njit(cache=True)
+def subtree_cost(p, q, page_start, page_keys, parent):
+    """Lookup weight x pages read over one subtree's keys and gaps (ranks local to it, its root at
+    depth 1): the classic cost rule of :func:`advisor.layout.evaluate`, kept unnormalised."""
+    pages = parent.shape[0]
+    depth = np.empty(pages, dtype=np.int64)
+    m = p.shape[0]
+    kd = np.empty(m, dtype=np.int64)
+    for i in range(pages):
+        depth[i] = 1 if parent[i] < 0 else depth[parent[i]] + 1
+        for j in range(page_start[i], page_start[i + 1]):
+            kd[page_keys[j]] = depth[i]
+    cost = q[0] * kd[0] + q[m] * kd[m - 1]
+    for k in range(m):
+        cost += p[k] * kd[k]
+    for g in range(1, m):
+        cost += q[g] * max(kd[g - 1], kd[g])
+    return cost
+
+
 @njit(cache=True, nogil=True)
 def build_within(score, cum, order, c, max_pages, max_height, tries, fill_first, hot_share):
     """The whole construction: (page_start, page_keys, parent, slot), pages in breadth-first
     order as :func:`advisor.optimize.within.within_budget_layout` adds them. Releases the GIL,
     so the planner builds several candidates at once."""
-    n = score.shape[0]
+    queue, bufs, write, page_start, page_keys, at = _start(order, c, max_pages, max_height)
+    while at[0] < at[1]:
+        lo, hi, h, budget, page, mine = _next_page(queue, bufs, write, page_start, page_keys, at, c)
+        if hi - lo > c:
+            keys = root_page(score, mine, lo, hi, c, h, budget, tries, fill_first, hot_share)
+            queue, page_start = _place(queue, bufs, write, page_start, at, page, lo, hi, h, budget, mine, keys, c, cum)
+            page_keys[page_start[page] : page_start[page + 1]] = keys
+    return _finish(queue, page_start, page_keys, at)
+
+
+@njit(cache=True, nogil=True)
+def build_pilot(score, cum, order, p, q, c, max_pages, max_height, variants, levels):
+    """The construction with each page's keys chosen by trial (the pilot method): every root
+    page variant in ``variants`` (rows of tries, fill_first, hot_share, carve; carve > 0: a
+    :func:`carve_root_page` with share hot_share; the first row must not carve) is completed by the
+    plain construction in each of those variants, per child the cheapest, and the page whose
+    completion costs least is kept. Pages below the top ``levels`` use the first variant. The
+    trials call :func:`build_within`, never this function: numba's cache mishandles recursion."""
+    queue, bufs, write, page_start, page_keys, at = _start(order, c, max_pages, max_height)
+    tries, fill_first, hot_share = int(variants[0, 0]), variants[0, 1] > 0, variants[0, 2]
+    while at[0] < at[1]:
+        lo, hi, h, budget, page, mine = _next_page(queue, bufs, write, page_start, page_keys, at, c)
+        if hi - lo <= c:
+            continue
+        if max_height - h < levels:
+            keys = _pilot_page(score, cum, mine, lo, hi, c, h, budget, p, q, variants)
+        else:
+            keys = root_page(score, mine, lo, hi, c, h, budget, tries, fill_first, hot_share)
+        queue, page_start = _place(queue, bufs, write, page_start, at, page, lo, hi, h, budget, mine, keys, c, cum)
+        page_keys[page_start[page] : page_start[page + 1]] = keys
+    return _finish(queue, page_start, page_keys, at)
+
+
+@njit(cache=True)
+def _pilot_page(score, cum, mine, lo, hi, c, h, budget, p, q, variants):
+    """The root keys of lo..hi-1 whose completion by the plain construction costs least."""
+    best_keys = np.empty(0, dtype=np.int64)
+    best = np.inf
+    scratch = np.empty(hi - lo, dtype=mine.dtype)
+    for v in range(variants.shape[0]):
+        if variants[v, 3] > 0:
+            keys = carve_root_page(score, mine, lo, hi, c, h, budget, variants[v, 2])
+        else:
+            tries, fill_first, hot_share = int(variants[v, 0]), variants[v, 1] > 0, variants[v, 2]
+            keys = root_page(score, mine, lo, hi, c, h, budget, tries, fill_first, hot_share)
+        if keys.shape[0] == best_keys.shape[0] and np.all(keys == best_keys):
+            continue
+        k_start, k_end, budgets = children_of(keys, lo, hi, c, budget, cum)
+        first = split_ranked(mine, keys, k_start, k_end, scratch, 0)
+        total = 0.0
+        for t in range(keys.shape[0] + 1):
+            a, z = k_start[t], k_end[t]
+            if z - a <= 0:
+                continue
+            if z - a <= c:  # one page
+                for k in range(a, z):
+                    total += p[k] + q[k]
+                total += q[z]
+                continue
+            sub_order = scratch[first[t] : first[t] + z - a] - a
+            cheapest = np.inf
+            for b in range(variants.shape[0]):
+                if variants[b, 3] > 0:
+                    continue  # carving is tried at the pilot's own pages only
+                tries, fill_first, hot_share = int(variants[b, 0]), variants[b, 1] > 0, variants[b, 2]
+                st, ks, par, _ = build_within(
+                    score[a:z], cum[a : z + 1], sub_order, c, budgets[t], h - 1, tries, fill_first, hot_share
+                )
+                cheapest = min(cheapest, subtree_cost(p[a:z], q[a : z + 1], st, ks, par))
+            total += cheapest
+            if total >= best:
+                break
+        if total < best:
+            best, best_keys = total, keys
+    return best_keys
+
+
+@njit(cache=True)
+def _start(order, c, max_pages, max_height):
+    """The construction's state: a queue of ranges (one per page, breadth-first), each level's
+    ranked keys, the pages built, and counters ``at`` = (next page, pages queued, level)."""
+    n = order.shape[0]
     room = min(n, max_pages, 2 * ((n + c - 1) // c) + 16)  # pages; grown when a loose budget needs more
-    q = np.empty((7, room), dtype=np.int64)  # per page: lo, hi, h, budget, parent, slot, offset
+    queue = np.empty((7, room), dtype=np.int64)  # per page: lo, hi, h, budget, parent, slot, offset
     bufs = np.empty((2, n), dtype=order.dtype)  # each level's ranges' keys, hottest first
     bufs[max_height % 2, :] = order
     write = np.zeros(2, dtype=np.int64)
     page_start = np.zeros(room + 1, dtype=np.int64)
     page_keys = np.empty(n, dtype=np.int64)
-    q[0, 0], q[1, 0], q[2, 0], q[3, 0], q[4, 0], q[5, 0], q[6, 0] = 0, n, max_height, max_pages, -1, -1, 0
-    head, tail = 0, 1
-    level = max_height
-    while head < tail:
-        lo, hi, h, budget = q[0, head], q[1, head], q[2, head], q[3, head]
-        page = head
-        head += 1
-        if h < level:  # a new level: the buffer of the level below it is free again
-            level = h
-            write[(h - 1) % 2] = 0
-        start = page_start[page]
-        if hi - lo <= c:
-            for i in range(hi - lo):
-                page_keys[start + i] = lo + i
-            page_start[page + 1] = start + hi - lo
-            continue
-        mine = bufs[h % 2, q[6, page] : q[6, page] + hi - lo]
-        keys = root_page(score, mine, lo, hi, c, h, budget, tries, fill_first, hot_share)
-        nk = keys.shape[0]
-        page_keys[start : start + nk] = keys
-        page_start[page + 1] = start + nk
-        kids = nk + 1
-        k_start = np.empty(kids, dtype=np.int64)
-        k_end = np.empty(kids, dtype=np.int64)
-        need = np.empty(kids, dtype=np.int64)
-        weight = np.empty(kids)
-        need_sum = 0
-        for t in range(kids):
-            k_start[t] = lo if t == 0 else keys[t - 1] + 1
-            k_end[t] = keys[t] if t < nk else hi
-            need[t] = _ceil_div(k_end[t] - k_start[t], c)
-            need_sum += need[t]
-            weight[t] = cum[k_end[t]] - cum[k_start[t]]
-        share = share_spare_kernel(budget - 1 - need_sum, weight, need, 2)
-        if tail + kids > q.shape[1]:
-            room = min(n, max(2 * q.shape[1], tail + kids))
-            grown = np.empty((7, room), dtype=np.int64)
-            grown[:, : q.shape[1]] = q
-            q = grown
-            page_start = _grown(page_start, room + 1)
-        # the children's ranked keys, split stably from this range's
-        below = (h - 1) % 2
-        fill_at = np.empty(kids, dtype=np.int64)
-        at = write[below]
-        for t in range(kids):
-            fill_at[t] = at
-            size = k_end[t] - k_start[t]
-            if size > 0:
-                q[0, tail], q[1, tail], q[2, tail] = k_start[t], k_end[t], h - 1
-                q[3, tail], q[4, tail], q[5, tail], q[6, tail] = need[t] + share[t], page, t, at
-                tail += 1
-            at += size
-        write[below] = at
-        if h - 1 >= 1:
-            for i in range(hi - lo):
-                x = mine[i]
-                t = np.searchsorted(keys, x)
-                if t < nk and keys[t] == x:
-                    continue
-                bufs[below, fill_at[t]] = x
-                fill_at[t] += 1
-    pages = head
-    return page_start[: pages + 1].copy(), page_keys, q[4, :pages].copy(), q[5, :pages].copy()
+    queue[0, 0], queue[1, 0], queue[2, 0], queue[3, 0] = 0, n, max_height, max_pages
+    queue[4, 0], queue[5, 0], queue[6, 0] = -1, -1, 0
+    at = np.array([0, 1, max_height], dtype=np.int64)
+    return queue, bufs, write, page_start, page_keys, at
+
+
+@njit(cache=True)
+def _next_page(queue, bufs, write, page_start, page_keys, at, c):
+    """Take the next range off the queue; a range of at most c keys is written as one page."""
+    page = at[0]
+    lo, hi, h, budget = queue[0, page], queue[1, page], queue[2, page], queue[3, page]
+    at[0] += 1
+    if h < at[2]:  # a new level: the buffer of the level below it is free again
+        at[2] = h
+        write[(h - 1) % 2] = 0
+    start = page_start[page]
+    if hi - lo <= c:
+        for i in range(hi - lo):
+            page_keys[start + i] = lo + i
+        page_start[page + 1] = start + hi - lo
+    mine = bufs[h % 2, queue[6, page] : queue[6, page] + hi - lo]
+    return lo, hi, h, budget, page, mine
+
+
+@njit(cache=True)
+def _place(queue, bufs, write, page_start, at, page, lo, hi, h, budget, mine, keys, c, cum):
+    """Record a page's key count and queue its child runs with their budgets and ranked keys."""
+    nk = keys.shape[0]
+    k_start, k_end, budgets = children_of(keys, lo, hi, c, budget, cum)
+    kids = nk + 1
+    tail = at[1]
+    if tail + kids > queue.shape[1]:
+        room = min(bufs.shape[1], max(2 * queue.shape[1], tail + kids))
+        grown = np.empty((7, room), dtype=np.int64)
+        grown[:, : queue.shape[1]] = queue
+        queue = grown
+        page_start = _grown(page_start, room + 1)
+    page_start[page + 1] = page_start[page] + nk
+    below = (h - 1) % 2
+    first = split_ranked(mine, keys, k_start, k_end, bufs[below], write[below]) if h > 1 else k_start
+    for t in range(kids):
+        if k_end[t] > k_start[t]:
+            queue[0, tail], queue[1, tail], queue[2, tail], queue[3, tail] = k_start[t], k_end[t], h - 1, budgets[t]
+            queue[4, tail], queue[5, tail], queue[6, tail] = page, t, first[t]
+            tail += 1
+    at[1] = tail
+    write[below] += hi - lo - nk
+    return queue, page_start
+
+
+@njit(cache=True)
+def _finish(queue, page_start, page_keys, at):
+    pages = at[0]
+    return page_start[: pages + 1].copy(), page_keys, queue[4, :pages].copy(), queue[5, :pages].copy()

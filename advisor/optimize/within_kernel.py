@@ -16,6 +16,56 @@ from numba import njit
 
 
 @njit(cache=True)
+def argsort_stable(a):
+    """Indices that sort ``a`` ascending, ties in index order (merge sort on plain loops).
+
+    numpy's sorts compiled by numba cost 1.3-1.7 s of compile time per type; these kernels need
+    small sorts of several types, and this one compiles in a fraction of that."""
+    n = a.shape[0]
+    idx = np.arange(n)
+    run = 16
+    for s in range(0, n, run):  # insertion sort of short runs
+        e = min(s + run, n)
+        for i in range(s + 1, e):
+            v = idx[i]
+            j = i - 1
+            while j >= s and a[idx[j]] > a[v]:
+                idx[j + 1] = idx[j]
+                j -= 1
+            idx[j + 1] = v
+    tmp = np.empty(n, dtype=np.int64)
+    width = run
+    while width < n:
+        for lo in range(0, n, 2 * width):
+            mid, hi = min(lo + width, n), min(lo + 2 * width, n)
+            i, j, k = lo, mid, lo
+            while i < mid and j < hi:
+                if a[idx[j]] < a[idx[i]]:
+                    tmp[k] = idx[j]
+                    j += 1
+                else:
+                    tmp[k] = idx[i]
+                    i += 1
+                k += 1
+            while i < mid:
+                tmp[k] = idx[i]
+                i += 1
+                k += 1
+            while j < hi:
+                tmp[k] = idx[j]
+                j += 1
+                k += 1
+        idx, tmp = tmp, idx
+        width *= 2
+    return idx
+
+
+@njit(cache=True)
+def sorted_copy(a):
+    return a[argsort_stable(a)]
+
+
+@njit(cache=True)
 def _cuts(g, sub):
     if g <= sub:
         return 0  # fits below one slot (also g <= 0)
@@ -137,7 +187,7 @@ def choose_offered(order, size, c, sub, budget):
     key order (O(log m) per offer): a sorted array of kept keys would shift O(c) entries per
     insert, O(c^2) per page, the larger cost at large c."""
     m = order.shape[0]
-    by_key = np.argsort(order)
+    by_key = argsort_stable(order)
     sorted_keys = order[by_key]
     where = np.empty(m, dtype=np.int64)  # offer t's position (1-based) in key order
     for j in range(m):
@@ -186,4 +236,4 @@ def choose_offered(order, size, c, sub, budget):
             chosen[nch] = x
             nch += 1
             cuts, pages = new_cuts, new_pages
-    return np.sort(chosen[:nch])
+    return sorted_copy(chosen[:nch])
