@@ -202,9 +202,11 @@ def plan_budget(spec: BudgetSpec, uni: Layout, n: int, c: int, shape: ClassicTre
     return resolve(spec, uni, pages, height, note)
 
 
-def _rank(fit: Histogram, uni: Layout, candidates, step, budget: Budget | None = None, uni_reads=None) -> list:
-    """(reads, name, layout, cost) of the best POLISH_TOP + 1 of the even split (cost None) and
-    the candidates (within ``budget``), best first.
+def _rank(
+    fit: Histogram, uni: Layout, candidates, step, budget: Budget | None = None, uni_reads=None, keep=POLISH_TOP + 1
+) -> list:
+    """(reads, name, layout, cost) of the best ``keep`` of the even split (cost None) and the
+    candidates (within ``budget``), best first.
 
     Candidates are built and costed on one thread per core: the budgeted constructions are
     compiled without the GIL and numpy releases it in the evaluator's large operations. The
@@ -230,13 +232,15 @@ def _rank(fit: Histogram, uni: Layout, candidates, step, budget: Budget | None =
             if found is not None:
                 ranked.append(found)
                 # only the best few are refined: the others' layouts are let go at once (memory)
-                ranked = sorted(ranked, key=lambda x: x[0])[: POLISH_TOP + 1]
+                ranked = sorted(ranked, key=lambda x: x[0])[:keep]
     return ranked
 
 
-def _improve(best: tuple, ranked: list, uni: Layout, fit: Histogram, step, label: str, suffix: str, refine) -> tuple:
-    """Apply ``refine`` to the top candidates (the best before need not be the best after)."""
-    for _value, name, cand, _cost in ranked[:POLISH_TOP]:
+def _improve(
+    best: tuple, ranked: list, uni: Layout, fit: Histogram, step, label: str, suffix: str, refine, top=POLISH_TOP
+) -> tuple:
+    """Apply ``refine`` to the ``top`` best candidates (the best before need not be the best after)."""
+    for _value, name, cand, _cost in ranked[:top]:
         if cand is uni:
             continue
         step(f"{label} ({name})")
@@ -294,7 +298,10 @@ def _within(shape, fit: Histogram, c: int, uni: Layout, budget: Budget, opts: Pl
         return res.layout, method, proven, res.dual_bound, None
     quick = opts.quick and n > LOOSE_MAX_KEYS
     candidates = _budget_candidates(shape, fit, c, uni, budget, opts, quick)
-    ranked = _rank(fit, uni, candidates, step, budget, uni_reads)
+    # a structure's trial-based candidate is refined on top of the usual best two (each with the
+    # same work as before), so adding it can never leave a worse plan than without it
+    top = POLISH_TOP + shape.trial_candidates(n, quick)
+    ranked = _rank(fit, uni, candidates, step, budget, uni_reads, keep=top + 1)
     best = ranked[0]
     if opts.within_polish_ops > 0 and not quick:
 
@@ -302,9 +309,8 @@ def _within(shape, fit: Histogram, c: int, uni: Layout, budget: Budget, opts: Pl
             out = shape.refine_within(cand, fit, budget, opts.within_polish_ops / POLISH_TOP, opts.within_subtree_ops)
             return out if out is not None and budget.allows(out) else None
 
-        best = _improve(
-            best, ranked, uni, fit, step, "exact re-solve of subtrees within the budget", " + exact subtrees", refine
-        )
+        label = "exact re-solve of subtrees within the budget"
+        best = _improve(best, ranked, uni, fit, step, label, " + exact subtrees", refine, top)
     if opts.within_recut_ops > 0 and not opts.quick and best[2] is not uni:
         step("exact re-cuts of page keys within the budget")
         cut = shape.recut_within(best[2], fit, budget, opts.within_recut_ops)

@@ -157,6 +157,10 @@ class ClassicTree:
     def bounds(self, hist: Histogram, c: int) -> dict[str, float]:
         return lower_bounds(hist, c)
 
+    def trial_candidates(self, n: int, quick: bool) -> int:
+        """How many of :meth:`within`'s candidates are built by trial (the pilot construction)."""
+        return 1 if not quick and n <= PILOT_MAX_KEYS else 0
+
     def refine_within(self, layout: Layout, fit: Histogram, budget: Budget, ops: float, subtree_ops: float):
         """Exact re-solves of subtrees within the budget (None: this family has none)."""
         return polish_within(layout, fit, budget.max_pages, budget.max_height, ops, subtree_ops)
@@ -254,6 +258,9 @@ class BPlusTree:
     def bounds(self, hist: Histogram, c: int) -> dict[str, float]:
         F = self.fanout
         return {"level_capacity": bplus_level_bound(hist, c, F), "leaf_runs": bplus_window_bound(hist, c, F)}
+
+    def trial_candidates(self, n: int, quick: bool) -> int:
+        return 0
 
     def refine_within(self, layout: Layout, fit: Histogram, budget: Budget, ops: float, subtree_ops: float):
         return None  # the budgeted re-solve of subtrees is classic-only so far
