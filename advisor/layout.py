@@ -343,8 +343,9 @@ def end_pages(layout: Layout, depth: np.ndarray | None = None) -> tuple[np.ndarr
     the key before it (the first leaf for gap 0). ``depth``: the pages' depths, when already at hand.
     """
     n = layout.n_keys
-    key_page = np.empty(n, dtype=np.int64)
-    gap_page = np.empty(n + 1, dtype=np.int64)
+    ids = np.int32 if layout.pages < 2**31 else np.int64  # page ids: half the memory at 10M keys
+    key_page = np.empty(n, dtype=ids)
+    gap_page = np.empty(n + 1, dtype=ids)
     bplus = layout.structure == "bplus"
     leaf = layout.leaf if bplus and layout.leaf is not None else np.zeros(0, dtype=bool)
     if depth is None:
