@@ -298,26 +298,35 @@ def _within(shape, fit: Histogram, c: int, uni: Layout, budget: Budget, opts: Pl
         return res.layout, method, proven, res.dual_bound, None
     quick = opts.quick and n > LOOSE_MAX_KEYS
     candidates = _budget_candidates(shape, fit, c, uni, budget, opts, quick)
-    # a structure's trial-based candidate is refined on top of the usual best two (each with the
-    # same work as before), so adding it can never leave a worse plan than without it
-    top = POLISH_TOP + shape.trial_candidates(n, quick)
+    # A structure's trial-built candidate (the pilot construction) is refined on top of the usual
+    # best two, each with the same work as before, and the best two candidates (by their best
+    # version) are both re-cut: so adding it never leaves a worse plan than without it.
+    trial = shape.trial_candidates(n, quick)
+    top = POLISH_TOP + trial
     ranked = _rank(fit, uni, candidates, step, budget, uni_reads, keep=top + 1)
-    best = ranked[0]
+    versions = {entry[1]: entry for entry in ranked}  # each candidate's best version so far
     if opts.within_polish_ops > 0 and not quick:
-
-        def refine(cand):
+        for _reads, name, cand, _cost in ranked[:top]:
+            if cand is uni:
+                continue
+            step(f"exact re-solve of subtrees within the budget ({name})")
             out = shape.refine_within(cand, fit, budget, opts.within_polish_ops / POLISH_TOP, opts.within_subtree_ops)
-            return out if out is not None and budget.allows(out) else None
-
-        label = "exact re-solve of subtrees within the budget"
-        best = _improve(best, ranked, uni, fit, step, label, " + exact subtrees", refine, top)
-    if opts.within_recut_ops > 0 and not opts.quick and best[2] is not uni:
-        step("exact re-cuts of page keys within the budget")
-        cut = shape.recut_within(best[2], fit, budget, opts.within_recut_ops)
-        if cut is not None and budget.allows(cut):
-            cost = evaluate(cut, fit)
-            if cost.expected_page_reads < best[0]:
-                best = (cost.expected_page_reads, best[1] + " + exact re-cuts", cut, cost)
+            if out is not None and budget.allows(out):
+                cost = evaluate(out, fit)
+                if cost.expected_page_reads < versions[name][0]:
+                    versions[name] = (cost.expected_page_reads, name + " + exact subtrees", out, cost)
+    finalists = sorted(versions.values(), key=lambda x: x[0])[: 1 + trial]
+    best = finalists[0]
+    if opts.within_recut_ops > 0 and not opts.quick:
+        for entry in finalists:
+            if entry[2] is uni:
+                continue
+            step("exact re-cuts of page keys within the budget")
+            cut = shape.recut_within(entry[2], fit, budget, opts.within_recut_ops)
+            if cut is not None and budget.allows(cut):
+                cost = evaluate(cut, fit)
+                if cost.expected_page_reads < best[0]:
+                    best = (cost.expected_page_reads, entry[1] + " + exact re-cuts", cut, cost)
     return best[2], best[1], False, None, best[3]
 
 
