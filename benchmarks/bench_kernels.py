@@ -118,9 +118,9 @@ def main() -> None:
             f"{t_slow / t_fast:>7.1f} {first:>13.2f}"
         )
 
-    n, c = 200_000, 168
+    n, c = 1_000_000, 168
     w = 1.0 / np.arange(1, n + 1)
-    hist = Histogram(np.round(1e6 * w[rng.permutation(n)] / w.sum()), np.zeros(n + 1))
+    hist = Histogram(np.round(1e7 * w[rng.permutation(n)] / w.sum()), np.zeros(n + 1))
     height, pages = min_height(n, c), -(-n // c)
     _, first = timed(within_budget_layout, hist, c, pages, height, 2)
     fast, t_fast = timed(within_budget_layout, hist, c, pages, height, 2)

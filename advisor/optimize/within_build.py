@@ -457,7 +457,7 @@ def _pilot_page(score, cum, mine, lo, hi, c, h, budget, p, q, variants):
                     total += p[k] + q[k]
                 total += q[z]
                 continue
-            sub_order = scratch[first[t] : first[t] + z - a] - a
+            sub_order = (scratch[first[t] : first[t] + z - a] - a).astype(mine.dtype)  # one compiled type
             cheapest = np.inf
             for b in range(variants.shape[0]):
                 if variants[b, 3] > 0:
