@@ -29,8 +29,9 @@ import numpy as np
 
 from ..histogram import Histogram
 from ..layout import Layout, LayoutBuilder
+from .pilot_build import build_pilot
 from .uniform import min_height
-from .within_build import SATURATED, build_pilot, build_within
+from .within_build import SATURATED, build_within
 from .within_kernel import choose_root_keys
 
 
