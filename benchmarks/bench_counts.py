@@ -14,9 +14,7 @@ recorded. Results: benchmarks/results/counts-1B.txt.
 from __future__ import annotations
 
 import argparse
-import json
 import math
-import subprocess
 import sys
 import time
 from pathlib import Path
@@ -24,7 +22,7 @@ from pathlib import Path
 import duckdb
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from bench_scale import CHILD  # noqa: E402
+from bench_scale import run_case  # noqa: E402
 
 PERMUTE = 7919  # coprime with the key counts used here, so i -> i * PERMUTE mod keys is a permutation
 
@@ -63,17 +61,8 @@ def main() -> None:
     t0 = time.perf_counter()
     db, logs = build(args.dir, args.keys, args.rows, args.lookups)
     built = time.perf_counter() - t0
-    t0 = time.perf_counter()
-    out = subprocess.run(
-        [sys.executable, "-c", CHILD, "recommend", str(db), "--table", "t", "--key", "k"]
-        + ["--log", str(logs), "--count-column", "n", "--json"],
-        check=True,
-        capture_output=True,
-        text=True,
-    )
-    wall = time.perf_counter() - t0
-    peak = int(out.stderr.strip().splitlines()[-1]) / 1024
-    run = json.loads(out.stdout)
+    # the default plan (budget of the even split, frontier included), the log a Parquet directory
+    run, wall, peak = run_case(db, extra=("--count-column", "n"), log=str(logs))
     print(f"{'count rows':>12} {'keys':>12} {'lookups':>15} {'build s':>8} {'wall s':>7} {'hist s':>7} {'peak MiB':>9}")
     print(
         f"{args.rows:>12,} {args.keys:>12,} {run['lookups']:>15,.0f} {built:>8.1f} {wall:>7.1f} "

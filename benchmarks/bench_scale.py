@@ -33,8 +33,10 @@ def run_case(
     model: str = "btree",
     budget: tuple[str, str] = ("even", "even"),
     extra: tuple[str, ...] = ("--no-frontier",),
+    log: str = "lg",
 ) -> tuple[dict, float, float]:
-    """Run the CLI in a fresh process; returns (JSON, wall seconds, that process's peak MiB)."""
+    """Run the CLI on table t, key k and ``log`` in a fresh process; returns (JSON, wall
+    seconds, that process's peak MiB)."""
     t0 = time.perf_counter()
     out = subprocess.run(
         [
@@ -48,7 +50,7 @@ def run_case(
             "--key",
             "k",
             "--log",
-            "lg",
+            log,
             "--json",
             "--model",
             model,

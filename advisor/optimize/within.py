@@ -90,17 +90,22 @@ def within_budget_layout(
     side, a root full of them leaves few non-empty children and the next-hottest keys two levels
     down; cuts around the cluster give them pages of their own one level down.
     """
-    n = hist.n
-    if n == 0:
-        return LayoutBuilder(n, c).build()
-    if max_pages < fewest_pages(n, c) or max_height < min_height(n, c):
-        raise ValueError("budget below the minimum: the caller checks this")
-    score = hist.key_score
-    cum = np.concatenate([[0.0], np.cumsum(score)])
+    if hist.n == 0:
+        return LayoutBuilder(0, c).build()
+    score, cum = _scores(hist, c, max_pages, max_height)
     start, keys, parent, slot = build_within(
         score, cum, hist.score_order, c, max_pages, max_height, tries, fill_first, float(hot_share)
     )
-    return Layout("btree", n, c, start, keys, parent, slot)
+    return Layout("btree", hist.n, c, start, keys, parent, slot)
+
+
+def _scores(hist: Histogram, c: int, max_pages: int, max_height: int) -> tuple[np.ndarray, np.ndarray]:
+    """The compiled builders' inputs (key scores and their running sum), once the budget is
+    known to admit a tree (module docstring)."""
+    if max_pages < fewest_pages(hist.n, c) or max_height < min_height(hist.n, c):
+        raise ValueError("budget below the minimum: the caller checks this")
+    score = hist.key_score
+    return score, np.concatenate([[0.0], np.cumsum(score)])
 
 
 # (tries, fill_first, hot_share, carve): the plain construction's variants, then pages carved
@@ -118,7 +123,7 @@ PILOT_VARIANTS = (
 )
 
 
-PILOT_MAX_KEYS = 300_000  # the pilot construction costs about 0.4 s at 200,000 keys, 1-5 s at a million
+PILOT_MAX_KEYS = 300_000  # measured once (Zipf 1.0): about 0.4 s at 200,000 keys, 1-5 s at a million
 
 
 def pilot_layout(hist: Histogram, c: int, max_pages: int, max_height: int, levels: int) -> Layout:
@@ -126,20 +131,16 @@ def pilot_layout(hist: Histogram, c: int, max_pages: int, max_height: int, level
     (the pilot method of Duin & Voss, "The pilot method", Networks 34, 1999): each variant of the
     root page (``PILOT_VARIANTS``) is completed below by the plain construction, each child by
     its cheapest variant, and the page with the cheapest completion is kept. It costs about
-    (variants^2 x levels) plain constructions; never worse than the plain construction in the
-    first variant on a range where that variant's page is tried."""
-    n = hist.n
-    if n == 0:
-        return LayoutBuilder(n, c).build()
-    if max_pages < fewest_pages(n, c) or max_height < min_height(n, c):
-        raise ValueError("budget below the minimum: the caller checks this")
-    score = hist.key_score
-    cum = np.concatenate([[0.0], np.cumsum(score)])
+    (variants^2 x levels) plain constructions; with ``levels`` = ``max_height`` it never costs
+    more than any plain (non-carving) variant's whole tree (tested)."""
+    if hist.n == 0:
+        return LayoutBuilder(0, c).build()
+    score, cum = _scores(hist, c, max_pages, max_height)
     variants = np.array(PILOT_VARIANTS, dtype=np.float64)
     start, keys, parent, slot = build_pilot(
         score, cum, hist.score_order, hist.p, hist.q, c, max_pages, max_height, variants, levels
     )
-    return Layout("btree", n, c, start, keys, parent, slot)
+    return Layout("btree", hist.n, c, start, keys, parent, slot)
 
 
 def within_budget_layout_plain(
