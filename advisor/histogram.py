@@ -62,6 +62,14 @@ class Histogram:
         return self.p + 0.5 * (self.q[:-1] + self.q[1:])
 
     @cached_property
+    def score_prefix(self) -> np.ndarray:
+        """Running sum of :attr:`key_score` (n + 1 entries, from 0): a range's score in O(1),
+        computed once for every budgeted construction of this histogram."""
+        out = np.zeros(self.n + 1)
+        np.cumsum(self.key_score, out=out[1:])
+        return out
+
+    @cached_property
     def score_order(self) -> np.ndarray:
         """Key ranks by :attr:`key_score`, highest first, ties by rank: sorted once per histogram,
         shared by every budgeted construction of its plans and frontier points."""

@@ -36,6 +36,12 @@ from .layout_kernel import depths_and_weight, end_pages_kernel, ordered_depths
 STRUCTURES = ("btree", "bplus")
 
 
+def rank_dtype(n: int) -> type:
+    """The narrowest integer type that holds every key rank of an ``n``-key table: int32 below
+    2^31 keys (half the memory of a layout's key array at 100M keys), else int64."""
+    return np.int32 if n < 2**31 else np.int64
+
+
 @dataclass(frozen=True)
 class Layout:
     """A complete assignment of keys to pages and of pages to child slots."""
@@ -74,13 +80,14 @@ class LayoutBuilder:
         self._parent: list[int] = []
         self._slot: list[int] = []
         self._leaf: list[bool] = []
+        self._dtype = rank_dtype(n_keys)
 
     def add(self, keys: np.ndarray, parent: int = -1, slot: int = -1, leaf: bool = True) -> int:
         """Append a page holding ``keys`` (ranks, ascending); returns its page id.
 
         For "bplus", ``leaf=False`` pages hold separator ranks instead of entries.
         """
-        self._keys.append(np.asarray(keys, dtype=np.int64))
+        self._keys.append(np.asarray(keys, dtype=self._dtype))
         self._parent.append(parent)
         self._slot.append(slot)
         self._leaf.append(leaf)
@@ -91,13 +98,13 @@ class LayoutBuilder:
 
     def set_keys(self, page: int, keys: np.ndarray) -> None:
         """Replace a page's keys (an internal B+-tree page learns its separators after its children)."""
-        self._keys[page] = np.asarray(keys, dtype=np.int64)
+        self._keys[page] = np.asarray(keys, dtype=self._dtype)
 
     def build(self) -> Layout:
         sizes = np.fromiter((k.size for k in self._keys), dtype=np.int64, count=len(self._keys))
         start = np.zeros(sizes.size + 1, dtype=np.int64)
         np.cumsum(sizes, out=start[1:])
-        keys = np.concatenate(self._keys) if self._keys else np.zeros(0, dtype=np.int64)
+        keys = np.concatenate(self._keys) if self._keys else np.zeros(0, dtype=self._dtype)
         return Layout(
             structure=self.structure,
             n_keys=self.n_keys,
@@ -351,7 +358,7 @@ def end_pages(layout: Layout, depth: np.ndarray | None = None) -> tuple[np.ndarr
     if depth is None:
         depth = layout.depths() if not bplus and n else np.zeros(0, dtype=np.int64)
     start = np.ascontiguousarray(layout.page_start, dtype=np.int64)
-    keys = np.ascontiguousarray(layout.page_keys, dtype=np.int64)
+    keys = np.ascontiguousarray(layout.page_keys, dtype=rank_dtype(n))  # as built: no copy
     end_pages_kernel(start, keys, n, bplus, leaf, depth, key_page, gap_page)
     return key_page, gap_page
 

@@ -100,3 +100,19 @@ def test_log_files_parquet_and_csv(tmp_path):
         with load_workload(db, "t", "k", str(tmp_path / name)) as wl:
             np.testing.assert_allclose(wl.hist.p, p)
             np.testing.assert_allclose(wl.hist.q, q)
+
+
+def test_duckdb_spills_into_the_runs_own_directory_and_keeps_the_users_limit(tmp_path):
+    """DuckDB's default spill directory sits beside the database file; a run must leave the
+    user's directory as it found it, evict its ranked keys while planning, and read them back."""
+    db = tmp_path / "own.duckdb"
+    make_db(db, "INTEGER", list(range(0, 4000, 2)), [4, 5, 6, 4])
+    before = sorted(p.name for p in tmp_path.iterdir())
+    with load_workload(db, "t", "k", "lg", memory_limit="300MB") as wl:
+        spill = wl.con.execute("SELECT current_setting('temp_directory')").fetchall()[0][0]
+        limit = wl.con.execute("SELECT current_setting('memory_limit')").fetchall()[0][0]
+        back = wl.con.execute("SELECT count(*), max(k) FROM advisor_ranked_keys").fetchall()[0]
+    assert not spill.startswith(str(tmp_path)) and "advisor-duckdb-" in spill
+    assert limit == "286.0 MiB"  # the user's 300MB (10^6 bytes each) as DuckDB prints it back, restored
+    assert back == (2000, 3998)
+    assert sorted(p.name for p in tmp_path.iterdir()) == before

@@ -104,8 +104,7 @@ def _scores(hist: Histogram, c: int, max_pages: int, max_height: int) -> tuple[n
     known to admit a tree (module docstring)."""
     if max_pages < fewest_pages(hist.n, c) or max_height < min_height(hist.n, c):
         raise ValueError("budget below the minimum: the caller checks this")
-    score = hist.key_score
-    return score, np.concatenate([[0.0], np.cumsum(score)])
+    return hist.key_score, hist.score_prefix
 
 
 # (tries, fill_first, hot_share, carve): the plain construction's variants, then pages carved

@@ -332,7 +332,7 @@ def start_build(order, c, max_pages, max_height):
     bufs[max_height % 2, :] = order
     write = np.zeros(2, dtype=np.int64)
     page_start = np.zeros(room + 1, dtype=np.int64)
-    page_keys = np.empty(n, dtype=np.int64)
+    page_keys = np.empty(n, dtype=order.dtype)  # ranks in the narrowest exact type (int32 below 2^31 keys)
     queue[0, 0], queue[1, 0], queue[2, 0], queue[3, 0] = 0, n, max_height, max_pages
     queue[4, 0], queue[5, 0], queue[6, 0] = -1, -1, 0
     at = np.array([0, 1, max_height], dtype=np.int64)
