@@ -13,7 +13,14 @@ Lower level: ``Histogram`` (hit and gap weights), ``plan_capacity`` (one capacit
 ``AdvisorError`` and carries the CLI's exit code.
 """
 
+import os
 from importlib import import_module
+
+# The compiled kernels at LLVM optimisation level 2 instead of numba's default 3: the same run
+# time measured (budgeted constructions and the pilot construction at 1M keys), and the one-off
+# compile on a new machine 28 s -> 21-22 s (benchmarks/results/kernels.txt). Read by numba when it
+# is first imported; a value the user set is kept.
+os.environ.setdefault("NUMBA_OPT", "2")
 
 # Names load on first use (PEP 562), so that the console entry point can take over Ctrl-C
 # before numpy and DuckDB are imported.
