@@ -34,6 +34,7 @@ def frontier(plan: Plan, hist: Histogram, options: PlanOptions, points=FRONTIER_
                 budget=budget_spec,
                 exact_seconds=options.exact_seconds / len(points),
                 within_polish_ops=options.within_polish_ops / len(points),
+                within_restricted_ops=options.within_restricted_ops / len(points),
                 quick=True,
             )
             point = plan_capacity(

@@ -27,7 +27,9 @@ def holdout_rows(
     rows = []
     for c, g in targets:
         for alpha in smoothings:
-            opts = replace(base or PlanOptions(), smoothing=alpha)  # every other setting of the run kept
+            base_opts = base or PlanOptions()
+            # every other setting of the run kept; the whole-tree re-solve gets a quarter of its work
+            opts = replace(base_opts, smoothing=alpha, within_restricted_ops=base_opts.within_restricted_ops / 4)
             plan = plan_capacity(train, c, g, opts)
             ins_u, ins_o = plan.uniform_cost.expected_page_reads, plan.recommended_cost.expected_page_reads
             out_u = evaluate(plan.uniform, test).expected_page_reads

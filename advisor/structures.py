@@ -53,6 +53,7 @@ from .optimize.constrained import (
 )
 from .optimize.recut import recut
 from .optimize.refine import polish_within
+from .optimize.restricted import restricted_resolve
 from .optimize.uniform import min_height
 from .optimize.within import PILOT_MAX_KEYS, fewest_pages, pilot_layout, within_budget_layout
 
@@ -169,6 +170,11 @@ class ClassicTree:
         """Exact re-cuts of page keys (None: this family has none)."""
         return recut(layout, fit, ops)
 
+    def resolve_within(self, layout: Layout, fit: Histogram, budget: Budget, height: int, ops: float):
+        """The whole tree re-solved within the budget with its upper pages drawn from candidate
+        keys (:mod:`advisor.optimize.restricted`; None: this family has none or it is too large)."""
+        return restricted_resolve(layout, fit, budget.max_pages, height, ops)
+
     def recut_within(self, layout: Layout, fit: Histogram, budget: Budget, ops: float):
         """Exact re-cuts of page keys that keep within the budget (None: this family has none)."""
         return recut(layout, fit, ops, max_window_ops=ops / 2, max_pages=budget.max_pages, max_height=budget.max_height)
@@ -269,6 +275,9 @@ class BPlusTree:
         return None
 
     def recut_within(self, layout: Layout, fit: Histogram, budget: Budget, ops: float):
+        return None
+
+    def resolve_within(self, layout: Layout, fit: Histogram, budget: Budget, height: int, ops: float):
         return None
 
 
