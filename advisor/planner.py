@@ -22,6 +22,7 @@ from .geometry import Geometry
 from .histogram import Histogram
 from .layout import Cost, Layout, check_layout, evaluate
 from .optimize import polish
+from .optimize.restricted import OPS_PER_SECOND as RESTRICTED_OPS_PER_SECOND
 from .structures import BPlusTree, ClassicTree, structure_for
 
 EXACT_SECONDS = 5.0  # run the exact DP when it should take about 5 s or less
@@ -341,7 +342,11 @@ RESTRICTED_AGAIN = 0.002  # a second round only after a first that saved at leas
 def _resolve_upper(shape, fit: Histogram, budget: Budget, opts: PlanOptions, step, best):
     """Whole-tree re-solves over candidate upper keys, each from the best layout so far, while
     they gain (:mod:`advisor.optimize.restricted`); the exact optimum when every key fitted."""
+    # it is an exact DP over a family of trees, so --exact-seconds caps it too (0: not at all)
+    ops = min(opts.within_restricted_ops, opts.exact_seconds * RESTRICTED_OPS_PER_SECOND)
     for _ in range(RESTRICTED_ROUNDS):
+        if ops <= 0:
+            break
         layout = best[2]
         height = int(layout.depths().max()) + 1
         if budget.max_height is not None:
@@ -349,7 +354,7 @@ def _resolve_upper(shape, fit: Histogram, budget: Budget, opts: PlanOptions, ste
         if height <= 2:  # root and leaves: measured 0.01-0.1% fewer reads for seconds of work
             break
         step("exact re-solve of the whole tree over candidate upper-page keys")
-        res = shape.resolve_within(layout, fit, budget, height, opts.within_restricted_ops)
+        res = shape.resolve_within(layout, fit, budget, height, ops)
         if res is None or not budget.allows(res.layout):
             break
         cost = evaluate(res.layout, fit)
