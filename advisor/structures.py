@@ -42,6 +42,7 @@ from .optimize.bplus import (
 )
 from .optimize.bplus_bounds import bplus_level_bound, bplus_window_bound
 from .optimize.bplus_constrained import bplus_constrained_work, solve_bplus_within
+from .optimize.bplus_restricted import bplus_restricted_resolve
 from .optimize.bplus_within import bplus_within_layout, hot_leaf_candidates
 from .optimize.constrained import (
     EVALUATIONS,
@@ -234,7 +235,8 @@ class BPlusTree:
 
     def within_exact_cost(self, n: int, c: int, height: int) -> tuple[float, float, bool]:
         seconds = bplus_constrained_work(n, self.fanout, height) * EVALUATIONS / BPLUS_WITHIN_OPS_PER_SECOND
-        return seconds, 0.0, n <= BPLUS_WITHIN_MAX_KEYS
+        tables = (n + 1) ** 2 * 8.0 * (len(bplus_chain(self.fanout)) + 1) * max(1, height - 1)
+        return seconds, tables, n <= BPLUS_WITHIN_MAX_KEYS
 
     def solve_within(self, fit: Histogram, c: int, budget: Budget, height: int) -> ConstrainedResult:
         return solve_bplus_within(fit, c, self.fanout, budget.max_pages, height)
@@ -278,7 +280,9 @@ class BPlusTree:
         return None
 
     def resolve_within(self, layout: Layout, fit: Histogram, budget: Budget, height: int, ops: float):
-        return None
+        """The B+ form of the whole-tree re-solve over candidate boundaries
+        (:mod:`advisor.optimize.bplus_restricted`)."""
+        return bplus_restricted_resolve(layout, fit, budget.max_pages, height, ops)
 
 
 def structure_names(model: str) -> list[str]:

@@ -16,12 +16,14 @@ import sys
 import time
 from pathlib import Path
 
+import numpy as np
+
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from bench_quality import histogram  # noqa: E402
 from gen import WORKLOADS  # noqa: E402
 
 from advisor.layout import evaluate  # noqa: E402
-from advisor.optimize import uniform_layout  # noqa: E402
+from advisor.optimize.bplus_restricted import bplus_restricted_resolve  # noqa: E402
 from advisor.optimize.constrained import solve_within  # noqa: E402
 from advisor.planner import PlanOptions, plan_capacity  # noqa: E402
 
@@ -31,9 +33,10 @@ def main() -> None:
     ap.add_argument("--n", type=int, default=1000)
     ap.add_argument("--caps", type=int, nargs="*", default=[3, 5, 12, 20])
     ap.add_argument("--workloads", nargs="*", default=list(WORKLOADS))
+    ap.add_argument("--model", choices=["btree", "bplus"], default="btree")
     args = ap.parse_args()
     n = args.n
-    print(f"n = {n:,}; budget: the even split's pages and levels; reads = expected page reads per lookup")
+    print(f"n = {n:,}, model {args.model}; budget: the even split's pages and levels; reads = page reads per lookup")
     head = (
         f"{'workload':<20} {'c':>3} {'pages':>6} {'lv':>3} {'even':>7} {'exact':>7} {'proven':>6} {'exact s':>7} "
         f"{'near':>7} {'near s':>6} {'near %':>7} {'saved %':>7}"
@@ -44,14 +47,18 @@ def main() -> None:
     for kind in args.workloads:
         for c in args.caps:
             h = histogram(kind, n, 100 * n)
-            even = uniform_layout(n, c)
+            opts = PlanOptions(exact_max_bytes=0, model=args.model, fanout=c + 1 if args.model == "bplus" else 0)
+            t0 = time.perf_counter()
+            plan = plan_capacity(h, c, options=opts)
+            t_near = time.perf_counter() - t0
+            even = plan.uniform
             height = int(even.depths().max())
             t0 = time.perf_counter()
-            ex = solve_within(h, c, even.pages, height)
+            if args.model == "bplus":  # every boundary a candidate: the exact budgeted B+ DP, banded
+                ex = bplus_restricted_resolve(even, h, even.pages, height, ops=np.inf)
+            else:
+                ex = solve_within(h, c, even.pages, height)
             t_exact = time.perf_counter() - t0
-            t0 = time.perf_counter()
-            plan = plan_capacity(h, c, options=PlanOptions(exact_max_bytes=0))
-            t_near = time.perf_counter() - t0
             near = plan.recommended_cost.expected_page_reads
             e = evaluate(even, h).expected_page_reads
             above = 100 * (near / ex.expected_page_reads - 1)

@@ -107,3 +107,70 @@ def test_re_solve_keeps_the_budget_and_is_not_proven_with_some_keys():
     check_layout(res.layout)
     assert res.layout.pages <= pages and res.layout.depths().max() <= height
     assert restricted_resolve(start, hist, pages, height, ops=1e3) is None  # nothing affordable
+
+
+@settings(max_examples=50, deadline=None)
+@given(data=st.data(), L=st.integers(1, 3), F=st.integers(2, 4))
+def test_bplus_every_boundary_a_candidate_is_the_brute_force_optimum(data, L, F):
+    from advisor.optimize.bplus import bplus_height, bplus_weights, uniform_bplus
+    from advisor.optimize.bplus_restricted import bplus_restricted_resolve
+
+    from .test_budget_exact import bplus_frontier
+
+    n = data.draw(st.integers(2, 7))
+    p = np.array(data.draw(st.lists(st.integers(0, 30), min_size=n, max_size=n)), float)
+    q = np.array(data.draw(st.lists(st.integers(0, 10), min_size=n + 1, max_size=n + 1)), float)
+    if p.sum() + q.sum() == 0:
+        p[0] = 1
+    hist = Histogram(p, q)
+    front = bplus_frontier(tuple(bplus_weights(hist)), L, F)
+    even = uniform_bplus(n, L, F)
+    hmin = bplus_height(n, L, F)
+    for height in sorted({max(hmin, 3), hmin + 2}):
+        for pages in sorted({even.pages, 2 * n}):
+            res = bplus_restricted_resolve(even, hist, pages, height, ops=1e12)
+            if n <= L:
+                assert res is None
+                continue
+            check_layout(res.layout)
+            assert res.layout.pages <= pages and res.layout.depths().max() <= height
+            truth = best_within(front, pages, height) / hist.total
+            got = evaluate(res.layout, hist).expected_page_reads
+            assert got >= truth - 1e-9
+            assert res.dual_bound <= truth + 1e-9
+            if res.proven:
+                assert got == pytest.approx(truth, rel=1e-9, abs=1e-12)
+
+
+@pytest.mark.parametrize("seed", range(10))
+def test_bplus_tables_equal_the_exact_dp_and_hold_the_starting_layout(seed):
+    from advisor.optimize.bplus import bplus_height, bplus_weights
+    from advisor.optimize.bplus_constrained import _Levels as BplusLevels
+    from advisor.optimize.bplus_restricted import _Tables as BplusTables
+    from advisor.optimize.bplus_restricted import candidate_bounds
+    from advisor.optimize.bplus_within import bplus_within_layout
+
+    rng = np.random.default_rng(200 + seed)
+    n, L, F = int(rng.integers(6, 60)), int(rng.integers(2, 6)), int(rng.integers(2, 5))
+    height = max(3, bplus_height(n, L, F) + int(rng.integers(0, 2)))
+    hist = Histogram(rng.zipf(1.5, n).astype(float), rng.integers(0, 3, n + 1).astype(float))
+    w = bplus_weights(hist)
+    S = np.concatenate([[0.0], np.cumsum(w)])
+    lam = float(rng.choice([0.0, 1.0, 7.0, 40.0]))
+    want = BplusLevels(w, L, F, height, lam).value(height)
+    for lower in range(1, height):
+        tables = BplusTables(S, L, F, lam, np.arange(n + 1), height, lower)
+        assert tables.value == pytest.approx(want, rel=1e-12)
+        layout = tables.layout()
+        check_layout(layout)
+        cost = evaluate(layout, hist).expected_page_reads * hist.total
+        assert cost + lam * layout.pages == pytest.approx(tables.value, rel=1e-9)
+    # a starting layout's own boundaries (no hot keys added) keep it in the family
+    start = bplus_within_layout(hist, L, F, 2 * n, height)
+    if start is None:
+        return
+    lower = 1
+    bd = candidate_bounds(start, hist, height, lower, hot=0)
+    base = evaluate(start, hist).expected_page_reads * hist.total
+    tables = BplusTables(S, L, F, lam, bd, height, lower)
+    assert tables.value <= base + lam * start.pages + 1e-6
