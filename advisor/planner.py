@@ -3,7 +3,9 @@
 Within a budget (the default: the even split's pages and levels) the planner runs the exact
 budgeted DP when its estimated time fits, otherwise the best of the budgeted constructions
 (the even split among them, so a plan is never worse than the baseline), refined by exact
-re-solves of subtrees and exact re-cuts of page-key windows that keep within the budget.
+re-solves of subtrees and exact re-cuts of page-key windows that keep within the budget, and
+last by a whole-tree re-solve whose upper pages are drawn from candidate keys
+(:mod:`advisor.optimize.restricted`; capped by ``--exact-seconds`` like the exact DP).
 Without one, the unconstrained optimum as before. The tree family is a structure (:mod:`advisor.structures`);
 every figure comes from :func:`advisor.layout.evaluate`.
 """
