@@ -332,7 +332,7 @@ def _within(shape, fit: Histogram, c: int, uni: Layout, budget: Budget, opts: Pl
                 cost = evaluate(cut, fit)
                 if cost.expected_page_reads < best[0]:
                     best = (cost.expected_page_reads, entry[1] + " + exact re-cuts", cut, cost)
-    if opts.within_restricted_ops > 0 and best[2] is not uni:
+    if opts.within_restricted_ops > 0:  # from the even split too: its upper keys and the hot ones
         return _resolve_upper(shape, fit, budget, opts, step, best)
     return best[2], best[1], False, None, best[3]
 
