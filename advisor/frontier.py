@@ -14,7 +14,7 @@ from dataclasses import replace
 from .budget import BudgetSpec
 from .histogram import Histogram
 from .layout import mean_fill
-from .planner import Plan, PlanOptions, plan_capacity
+from .planner import Plan, PlanOptions, plan_capacity, restricted_ops
 
 FRONTIER_PAGES = ("even", "1.1x", "1.25x", "1.5x", "2x", "none")
 
@@ -34,7 +34,7 @@ def frontier(plan: Plan, hist: Histogram, options: PlanOptions, points=FRONTIER_
                 budget=budget_spec,
                 exact_seconds=options.exact_seconds / len(points),
                 within_polish_ops=options.within_polish_ops / len(points),
-                within_restricted_ops=options.within_restricted_ops / len(points),
+                within_restricted_ops=restricted_ops(options) / len(points),
                 quick=True,
             )
             point = plan_capacity(

@@ -13,7 +13,7 @@ from dataclasses import replace
 from .geometry import Geometry
 from .histogram import Histogram
 from .layout import evaluate
-from .planner import PlanOptions, plan_capacity, saving
+from .planner import PlanOptions, plan_capacity, restricted_ops, saving
 
 
 def holdout_rows(
@@ -29,7 +29,7 @@ def holdout_rows(
         for alpha in smoothings:
             base_opts = base or PlanOptions()
             # every other setting of the run kept; the whole-tree re-solve gets a quarter of its work
-            opts = replace(base_opts, smoothing=alpha, within_restricted_ops=base_opts.within_restricted_ops / 4)
+            opts = replace(base_opts, smoothing=alpha, within_restricted_ops=restricted_ops(base_opts) / 4)
             plan = plan_capacity(train, c, g, opts)
             ins_u, ins_o = plan.uniform_cost.expected_page_reads, plan.recommended_cost.expected_page_reads
             out_u = evaluate(plan.uniform, test).expected_page_reads

@@ -122,8 +122,9 @@ class PlanOptions:
     within_subtree_ops: float = 2e8
     within_recut_ops: float = 3e8  # ... of exact re-cuts of page-key windows within the budget (classic;
     # frontier points skip them: at n = 2,000 they gained 0-0.4% after the re-solves of subtrees)
-    within_restricted_ops: float = 2e9  # work of one whole-tree re-solve over candidate upper keys (about
-    # 6e8 per second, see restricted.OPS_PER_SECOND; up to RESTRICTED_ROUNDS of them while they gain)
+    within_restricted_ops: float | None = None  # work of one whole-tree re-solve over candidate upper
+    # keys; None: two thirds of what --exact-seconds buys (2e9 at 5 s, about 3 s of this machine kind;
+    # see restricted.OPS_PER_SECOND); up to RESTRICTED_ROUNDS of them while they gain
     quick: bool = False  # a frontier point: large tables skip the slow unconstrained builders
     leaf_fill: float = 1.0  # share of each even-split leaf page a bulk loader fills (the baseline)
     internal_fill: float | None = None  # ... and of each internal page (default: the leaves' fill)
@@ -332,9 +333,22 @@ def _within(shape, fit: Histogram, c: int, uni: Layout, budget: Budget, opts: Pl
                 cost = evaluate(cut, fit)
                 if cost.expected_page_reads < best[0]:
                     best = (cost.expected_page_reads, entry[1] + " + exact re-cuts", cut, cost)
-    if opts.within_restricted_ops > 0:  # from the even split too: its upper keys and the hot ones
+    if restricted_ops(opts) > 0:  # from the even split too: its upper keys and the hot ones
         return _resolve_upper(shape, fit, budget, opts, step, best)
     return best[2], best[1], False, None, best[3]
+
+
+RESTRICTED_SHARE = 2 / 3  # of the --exact-seconds work, per round of the whole-tree re-solve
+
+
+def restricted_ops(opts: PlanOptions) -> float:
+    """Work one round of the whole-tree re-solve may take. It is an exact DP over a family of
+    trees, so ``--exact-seconds`` sets it (0: not at all) unless the options name a figure."""
+    if opts.exact_seconds <= 0:
+        return 0.0
+    if opts.within_restricted_ops is not None:
+        return opts.within_restricted_ops
+    return RESTRICTED_SHARE * opts.exact_seconds * RESTRICTED_OPS_PER_SECOND
 
 
 RESTRICTED_ROUNDS = 2  # a third gained 0-0.2% at n = 2,000 for as much time again
@@ -344,8 +358,7 @@ RESTRICTED_AGAIN = 0.002  # a second round only after a first that saved at leas
 def _resolve_upper(shape, fit: Histogram, budget: Budget, opts: PlanOptions, step, best):
     """Whole-tree re-solves over candidate upper keys, each from the best layout so far, while
     they gain (:mod:`advisor.optimize.restricted`); the exact optimum when every key fitted."""
-    # it is an exact DP over a family of trees, so --exact-seconds caps it too (0: not at all)
-    ops = min(opts.within_restricted_ops, opts.exact_seconds * RESTRICTED_OPS_PER_SECOND)
+    ops = restricted_ops(opts)
     for _ in range(RESTRICTED_ROUNDS):
         if ops <= 0:
             break
