@@ -174,3 +174,24 @@ def test_bplus_tables_equal_the_exact_dp_and_hold_the_starting_layout(seed):
     base = evaluate(start, hist).expected_page_reads * hist.total
     tables = BplusTables(S, L, F, lam, bd, height, lower)
     assert tables.value <= base + lam * start.pages + 1e-6
+
+
+@pytest.mark.parametrize("model", ["btree", "bplus"])
+def test_planner_proves_small_plans_through_the_re_solve_and_skips_it_at_exact_seconds_zero(model):
+    """With the exact DP forbidden (no memory for its tables) a small table still ends proven
+    optimal: every key fits the re-solve's work cap, which makes it the exact budgeted DP; with
+    --exact-seconds 0 it does not run at all."""
+    from advisor.planner import PlanOptions, plan_capacity
+
+    rng = np.random.default_rng(3)
+    n, c = 300, 4
+    prob = 1.0 / np.arange(1, n + 1)
+    hist = Histogram(rng.multinomial(30 * n, rng.permutation(prob / prob.sum())).astype(float), np.ones(n + 1))
+    fan = c + 1 if model == "bplus" else 0
+    plan = plan_capacity(hist, c, options=PlanOptions(exact_max_bytes=0, model=model, fanout=fan))
+    assert plan.proven_optimal and plan.method.startswith("exact DP within the budget")
+    assert plan.lower_bound == pytest.approx(plan.recommended_cost.expected_page_reads, rel=1e-9)
+    assert plan.budget.allows(plan.recommended)
+    quick = plan_capacity(hist, c, options=PlanOptions(exact_seconds=0, model=model, fanout=fan))
+    assert "re-solve" not in quick.method and not quick.method.startswith("exact DP")
+    assert plan.recommended_cost.expected_page_reads <= quick.recommended_cost.expected_page_reads + 1e-12
