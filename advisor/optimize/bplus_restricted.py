@@ -45,13 +45,15 @@ def lower_levels(n: int, leaf: int, F: int, height: int) -> int:
     return lower
 
 
-def candidate_bounds(layout: Layout, hist: Histogram, height: int, lower: int, hot: int) -> np.ndarray:
+def candidate_bounds(layout: Layout, hist: Histogram, height: int, lower: int, hot: int) -> np.ndarray | None:
     """Boundaries (0..n) where the layout's pages above its lowest ``lower`` levels split their
-    ranges, and both ends of the ``hot`` hottest keys."""
+    ranges, and both ends of the ``hot`` hottest keys; None when those pages alone are too many."""
     n = hist.n
     depth = layout.depths()
-    lo, hi = subtree_ranges(layout)
     upper = np.nonzero(depth <= height - lower + 1)[0]  # children of upper pages and the root
+    if upper.size > MAX_CANDIDATES:  # too many, known before any range is computed (a million keys)
+        return None
+    lo, hi = subtree_ranges(layout)
     order = hist.score_order[:hot].astype(np.int64)
     bounds = np.concatenate([[0, n], lo[upper], hi[upper] + 1, order, order + 1]).astype(np.int64)
     return np.unique(bounds[(bounds >= 0) & (bounds <= n)])
@@ -187,7 +189,8 @@ def bplus_restricted_resolve(
         for hot in HOT_CANDIDATES:
             cand = candidate_bounds(layout, hist, max_height, lower, hot)
             if (
-                cand.size > MAX_CANDIDATES
+                cand is None
+                or cand.size > MAX_CANDIDATES
                 or bplus_restricted_work(n, leaf, F, max_height, lower, cand) * EVALUATIONS > ops
             ):
                 break

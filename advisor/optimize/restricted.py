@@ -46,10 +46,16 @@ def lower_levels(n: int, c: int, height: int) -> int:
     return lower
 
 
-def candidate_keys(layout: Layout, hist: Histogram, height: int, lower: int, hot: int) -> np.ndarray:
-    """Keys of the layout's pages above its lowest ``lower`` levels, and the ``hot`` hottest."""
-    depth = layout.depths()
+def candidate_keys(
+    layout: Layout, hist: Histogram, height: int, lower: int, hot: int, depth: np.ndarray | None = None
+) -> np.ndarray | None:
+    """Keys of the layout's pages above its lowest ``lower`` levels, and the ``hot`` hottest;
+    None when the upper keys alone are more than ``MAX_CANDIDATES`` (counted before any array of
+    keys is built: at a million keys this is the common case and must cost nothing)."""
+    depth = layout.depths() if depth is None else depth
     upper = np.nonzero(depth <= height - lower)[0]
+    if int(layout.page_sizes()[upper].sum()) > MAX_CANDIDATES:
+        return None
     keys = [layout.keys_of(int(pg)) for pg in upper]
     keys.append(hist.score_order[:hot])
     return np.unique(np.concatenate(keys).astype(np.int64))
@@ -176,9 +182,10 @@ def choose_candidates(layout: Layout, hist: Histogram, height: int, lower: int, 
     if n <= MAX_CANDIDATES and restricted_work(n, c, height, lower, every) * (BISECTION_STEPS + 2) <= ops:
         return every
     best = None
+    depth = layout.depths()
     for hot in HOT_CANDIDATES:
-        cand = candidate_keys(layout, hist, height, lower, hot)
-        if cand.size > MAX_CANDIDATES or restricted_work(n, c, height, lower, cand) * EVALUATIONS > ops:
+        cand = candidate_keys(layout, hist, height, lower, hot, depth)
+        if cand is None or cand.size > MAX_CANDIDATES or restricted_work(n, c, height, lower, cand) * EVALUATIONS > ops:
             break
         best = cand
     return best
