@@ -67,8 +67,14 @@ class Layout:
         return np.diff(self.page_start)
 
     def depths(self) -> np.ndarray:
-        """Depth of every page (root = 1), from the parent links alone."""
-        return _depths(self.parent)
+        """Depth of every page (root = 1), from the parent links alone; computed once per layout
+        (the planner, bounds, report and frontier ask many times) and handed out read-only."""
+        cached = self.__dict__.get("_depth_cache")
+        if cached is None:
+            cached = _depths(self.parent)
+            cached.flags.writeable = False
+            self.__dict__["_depth_cache"] = cached  # beside the frozen fields, not one of them
+        return cached
 
 
 class LayoutBuilder:
