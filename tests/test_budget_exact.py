@@ -52,6 +52,15 @@ def classic_frontier(p, q, c):
     return trees(0, n)
 
 
+def draw_histogram(data, n: int):
+    """Hit and miss counts for n keys drawn by hypothesis (never all zero), and their histogram."""
+    p = np.array(data.draw(st.lists(st.integers(0, 30), min_size=n, max_size=n)), float)
+    q = np.array(data.draw(st.lists(st.integers(0, 10), min_size=n + 1, max_size=n + 1)), float)
+    if p.sum() + q.sum() == 0:
+        p[0] = 1
+    return p, q, Histogram(p, q)
+
+
 def best_within(frontier, pages, height):
     return min((v for (pg, ht), v in frontier.items() if pg <= pages and ht <= height), default=np.inf)
 
@@ -60,11 +69,7 @@ def best_within(frontier, pages, height):
 @given(data=st.data(), c=st.integers(1, 3))
 def test_constrained_exact_equals_brute_force(data, c):
     n = data.draw(st.integers(1, 7))
-    p = np.array(data.draw(st.lists(st.integers(0, 30), min_size=n, max_size=n)), float)
-    q = np.array(data.draw(st.lists(st.integers(0, 10), min_size=n + 1, max_size=n + 1)), float)
-    if p.sum() + q.sum() == 0:
-        p[0] = 1
-    hist = Histogram(p, q)
+    p, q, hist = draw_histogram(data, n)
     front = classic_frontier(tuple(p), tuple(q), c)
     hmin = min_height(n, c)
     for height in (hmin, hmin + 1, hmin + 3):
@@ -136,11 +141,7 @@ def test_bplus_constrained_exact_equals_brute_force(data, L, F):
     from advisor.optimize.bplus_constrained import solve_bplus_within
 
     n = data.draw(st.integers(1, 7))
-    p = np.array(data.draw(st.lists(st.integers(0, 30), min_size=n, max_size=n)), float)
-    q = np.array(data.draw(st.lists(st.integers(0, 10), min_size=n + 1, max_size=n + 1)), float)
-    if p.sum() + q.sum() == 0:
-        p[0] = 1
-    hist = Histogram(p, q)
+    p, q, hist = draw_histogram(data, n)
     w = bplus_weights(hist)
     front = bplus_frontier(tuple(w), L, F)
     hmin = bplus_height(n, L, F)

@@ -17,7 +17,7 @@ from advisor.optimize.constrained import _Levels
 from advisor.optimize.restricted import _Tables, candidate_keys, lower_levels, restricted_resolve
 from advisor.optimize.within import fewest_pages, within_budget_layout
 
-from .test_budget_exact import best_within, classic_frontier
+from .test_budget_exact import best_within, classic_frontier, draw_histogram
 
 
 def _prefix(hist: Histogram):
@@ -28,11 +28,7 @@ def _prefix(hist: Histogram):
 @given(data=st.data(), c=st.integers(1, 3))
 def test_every_key_a_candidate_is_the_brute_force_optimum(data, c):
     n = data.draw(st.integers(2, 7))
-    p = np.array(data.draw(st.lists(st.integers(0, 30), min_size=n, max_size=n)), float)
-    q = np.array(data.draw(st.lists(st.integers(0, 10), min_size=n + 1, max_size=n + 1)), float)
-    if p.sum() + q.sum() == 0:
-        p[0] = 1
-    hist = Histogram(p, q)
+    p, q, hist = draw_histogram(data, n)
     front = classic_frontier(tuple(p), tuple(q), c)
     hmin = min_height(n, c)
     even = within_budget_layout(hist, c, fewest_pages(n, c), max(hmin, 2))
@@ -118,11 +114,7 @@ def test_bplus_every_boundary_a_candidate_is_the_brute_force_optimum(data, L, F)
     from .test_budget_exact import bplus_frontier
 
     n = data.draw(st.integers(2, 7))
-    p = np.array(data.draw(st.lists(st.integers(0, 30), min_size=n, max_size=n)), float)
-    q = np.array(data.draw(st.lists(st.integers(0, 10), min_size=n + 1, max_size=n + 1)), float)
-    if p.sum() + q.sum() == 0:
-        p[0] = 1
-    hist = Histogram(p, q)
+    p, q, hist = draw_histogram(data, n)
     front = bplus_frontier(tuple(bplus_weights(hist)), L, F)
     even = uniform_bplus(n, L, F)
     hmin = bplus_height(n, L, F)

@@ -13,7 +13,6 @@ candidate it is the exact budgeted B+ DP, and its dual bound and proof hold.
 from __future__ import annotations
 
 from collections import deque
-from dataclasses import replace
 
 import numpy as np
 
@@ -28,9 +27,9 @@ from .bplus_restricted_kernel import (
     bp_restricted_level,
     bp_restricted_row,
 )
-from .constrained import BISECTION_STEPS, ConstrainedResult, price_bisection
+from .constrained import ConstrainedResult
 from .near import subtree_ranges
-from .restricted import EVALUATIONS, HOT_CANDIDATES, LOWER_OPS, MAX_CANDIDATES, RESTRICTED_STEPS
+from .restricted import LOWER_OPS, MAX_CANDIDATES, affordable_candidates, bisect_over
 
 
 def reach(leaf: int, F: int, h: int) -> int:
@@ -45,18 +44,26 @@ def lower_levels(n: int, leaf: int, F: int, height: int) -> int:
     return lower
 
 
-def candidate_bounds(layout: Layout, hist: Histogram, height: int, lower: int, hot: int) -> np.ndarray | None:
+def upper_bounds(layout: Layout, n: int, height: int, lower: int) -> np.ndarray | None:
     """Boundaries (0..n) where the layout's pages above its lowest ``lower`` levels split their
-    ranges, and both ends of the ``hot`` hottest keys; None when those pages alone are too many."""
-    n = hist.n
-    depth = layout.depths()
-    upper = np.nonzero(depth <= height - lower + 1)[0]  # children of upper pages and the root
-    if upper.size > MAX_CANDIDATES:  # too many, known before any range is computed (a million keys)
+    ranges; None when those pages are too many (known before any range is computed: a million keys)."""
+    upper = np.nonzero(layout.depths() <= height - lower + 1)[0]  # children of upper pages and the root
+    if upper.size > MAX_CANDIDATES:
         return None
     lo, hi = subtree_ranges(layout)
+    return np.concatenate([[0, n], lo[upper], hi[upper] + 1]).astype(np.int64)
+
+
+def with_hottest_bounds(base: np.ndarray, hist: Histogram, hot: int) -> np.ndarray:
+    """``base`` and both ends of the ``hot`` hottest keys, sorted, each once."""
     order = hist.score_order[:hot].astype(np.int64)
-    bounds = np.concatenate([[0, n], lo[upper], hi[upper] + 1, order, order + 1]).astype(np.int64)
-    return np.unique(bounds[(bounds >= 0) & (bounds <= n)])
+    return np.unique(np.concatenate([base, order, order + 1]))
+
+
+def candidate_bounds(layout: Layout, hist: Histogram, height: int, lower: int, hot: int) -> np.ndarray | None:
+    """The layout's upper boundaries (:func:`upper_bounds`) and both ends of the ``hot`` hottest keys."""
+    base = upper_bounds(layout, hist.n, height, lower)
+    return None if base is None else with_hottest_bounds(base, hist, hot)
 
 
 def bplus_restricted_work(n: int, leaf: int, F: int, height: int, lower: int, bd: np.ndarray) -> float:
@@ -178,36 +185,17 @@ def bplus_restricted_resolve(
     if layout.structure != "bplus" or n <= leaf or max_height < 3 or hist.total <= 0 or F < 2:
         return None
     lower = lower_levels(n, leaf, F, max_height)
-    every = np.arange(n + 1, dtype=np.int64)
-    if (
-        n < MAX_CANDIDATES
-        and bplus_restricted_work(n, leaf, F, max_height, lower, every) * (BISECTION_STEPS + 2) <= ops
-    ):
-        bd = every
-    else:
-        bd = None
-        for hot in HOT_CANDIDATES:
-            cand = candidate_bounds(layout, hist, max_height, lower, hot)
-            if (
-                cand is None
-                or cand.size > MAX_CANDIDATES
-                or bplus_restricted_work(n, leaf, F, max_height, lower, cand) * EVALUATIONS > ops
-            ):
-                break
-            bd = cand
-        if bd is None:
-            return None
-    S = np.concatenate([[0.0], np.cumsum(bplus_weights(hist))])
-    first = _Tables(S, leaf, F, 0.0, bd, max_height, lower)
-    if not np.isfinite(first.value):
+    base = upper_bounds(layout, n, max_height, lower)
+    bd = affordable_candidates(
+        np.arange(n + 1, dtype=np.int64),
+        base,
+        lambda hot: with_hottest_bounds(base, hist, hot),
+        lambda bounds: bplus_restricted_work(n, leaf, F, max_height, lower, bounds),
+        ops,
+    )
+    if bd is None:
         return None
-
-    def levels(lam: float):
-        tables = first if lam == 0.0 else _Tables(S, leaf, F, lam, bd, max_height, lower)
-        return tables.layout(), tables.value
-
-    steps = BISECTION_STEPS if bd.size == n + 1 else RESTRICTED_STEPS
-    res = price_bisection(levels, max_pages, max_height, n, hist.total, steps)
-    if bd.size < n + 1:
-        res = replace(res, dual_bound=0.0, proven=False)
-    return res
+    S = np.concatenate([[0.0], np.cumsum(bplus_weights(hist))])
+    return bisect_over(
+        bd, n + 1, lambda lam: _Tables(S, leaf, F, lam, bd, max_height, lower), max_pages, max_height, n, hist.total
+    )

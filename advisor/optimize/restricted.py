@@ -46,19 +46,25 @@ def lower_levels(n: int, c: int, height: int) -> int:
     return lower
 
 
-def candidate_keys(
-    layout: Layout, hist: Histogram, height: int, lower: int, hot: int, depth: np.ndarray | None = None
-) -> np.ndarray | None:
-    """Keys of the layout's pages above its lowest ``lower`` levels, and the ``hot`` hottest;
-    None when the upper keys alone are more than ``MAX_CANDIDATES`` (counted before any array of
-    keys is built: at a million keys this is the common case and must cost nothing)."""
-    depth = layout.depths() if depth is None else depth
-    upper = np.nonzero(depth <= height - lower)[0]
+def upper_keys(layout: Layout, height: int, lower: int) -> np.ndarray | None:
+    """Keys of the layout's pages above its lowest ``lower`` levels; None when they are more than
+    ``MAX_CANDIDATES`` (counted before any array of keys is built: at a million keys this is the
+    common case and must cost nothing)."""
+    upper = np.nonzero(layout.depths() <= height - lower)[0]
     if int(layout.page_sizes()[upper].sum()) > MAX_CANDIDATES:
         return None
-    keys = [layout.keys_of(int(pg)) for pg in upper]
-    keys.append(hist.score_order[:hot])
-    return np.unique(np.concatenate(keys).astype(np.int64))
+    return np.concatenate([layout.keys_of(int(pg)) for pg in upper]).astype(np.int64)
+
+
+def with_hottest(base: np.ndarray, hist: Histogram, hot: int) -> np.ndarray:
+    """``base`` and the ``hot`` hottest keys, sorted, each once."""
+    return np.unique(np.concatenate([base, hist.score_order[:hot].astype(np.int64)]))
+
+
+def candidate_keys(layout: Layout, hist: Histogram, height: int, lower: int, hot: int) -> np.ndarray | None:
+    """Keys of the layout's upper pages (:func:`upper_keys`) and the ``hot`` hottest."""
+    base = upper_keys(layout, height, lower)
+    return None if base is None else with_hottest(base, hist, hot)
 
 
 class _Tables:
@@ -173,22 +179,38 @@ def restricted_work(n: int, c: int, height: int, lower: int, cand: np.ndarray) -
     return ops
 
 
-def choose_candidates(layout: Layout, hist: Histogram, height: int, lower: int, ops: float) -> np.ndarray | None:
-    """Every key when the budget of work affords it (the re-solve is then the exact budgeted DP),
-    else the layout's upper keys and as many of the hottest keys as it affords; None when not
-    even the upper keys fit."""
-    n, c = hist.n, layout.capacity
-    every = np.arange(n, dtype=np.int64)
-    if n <= MAX_CANDIDATES and restricted_work(n, c, height, lower, every) * (BISECTION_STEPS + 2) <= ops:
+def affordable_candidates(every: np.ndarray, base: np.ndarray | None, offer, work, ops: float) -> np.ndarray | None:
+    """``every`` candidate when the work affords it (the re-solve is then the exact budgeted DP),
+    else ``offer(hot)`` (``base`` and the hottest ones) for the most hottest the work affords;
+    None when not even the smallest offer fits. ``work(cand)`` is one price's tables."""
+    if every.size <= MAX_CANDIDATES and work(every) * (BISECTION_STEPS + 2) <= ops:
         return every
+    if base is None:
+        return None
     best = None
-    depth = layout.depths()
     for hot in HOT_CANDIDATES:
-        cand = candidate_keys(layout, hist, height, lower, hot, depth)
-        if cand is None or cand.size > MAX_CANDIDATES or restricted_work(n, c, height, lower, cand) * EVALUATIONS > ops:
+        cand = offer(hot)
+        if cand.size > MAX_CANDIDATES or work(cand) * EVALUATIONS > ops:
             break
         best = cand
     return best
+
+
+def bisect_over(cand: np.ndarray, every_size: int, tables, max_pages, max_height: int, n: int, total: float):
+    """The price bisection over one candidate set (``tables(lam)`` gives an object with
+    ``value`` and ``layout()``); None when no tree of the family fits the height. The dual bound
+    and ``proven`` are kept only when every candidate was offered."""
+    first = tables(0.0)
+    if not np.isfinite(first.value):
+        return None
+
+    def levels(lam: float):
+        t = first if lam == 0.0 else tables(lam)
+        return t.layout(), t.value
+
+    complete = cand.size == every_size
+    res = price_bisection(levels, max_pages, max_height, n, total, BISECTION_STEPS if complete else RESTRICTED_STEPS)
+    return res if complete else replace(res, dual_bound=0.0, proven=False)
 
 
 def restricted_resolve(
@@ -202,21 +224,18 @@ def restricted_resolve(
     if layout.structure != "btree" or n <= c or max_height < 2 or hist.total <= 0:
         return None
     lower = lower_levels(n, c, max_height)
-    cand = choose_candidates(layout, hist, max_height, lower, ops)
+    base = upper_keys(layout, max_height, lower)
+    cand = affordable_candidates(
+        np.arange(n, dtype=np.int64),
+        base,
+        lambda hot: with_hottest(base, hist, hot),
+        lambda keys: restricted_work(n, c, max_height, lower, keys),
+        ops,
+    )
     if cand is None:
         return None
     P = np.concatenate([[0.0], np.cumsum(hist.p)])
     Q = np.concatenate([[0.0], np.cumsum(hist.q)])
-    first = _Tables(P, Q, c, 0.0, cand, max_height, lower)
-    if not np.isfinite(first.value):  # no tree of this family fits the height
-        return None
-
-    def levels(lam: float):
-        tables = first if lam == 0.0 else _Tables(P, Q, c, lam, cand, max_height, lower)
-        return tables.layout(), tables.value
-
-    steps = BISECTION_STEPS if cand.size == n else RESTRICTED_STEPS
-    res = price_bisection(levels, max_pages, max_height, n, hist.total, steps)
-    if cand.size < n:
-        res = replace(res, dual_bound=0.0, proven=False)
-    return res
+    return bisect_over(
+        cand, n, lambda lam: _Tables(P, Q, c, lam, cand, max_height, lower), max_pages, max_height, n, hist.total
+    )
