@@ -372,7 +372,9 @@ def place_page(queue, bufs, write, page_start, at, page, lo, hi, h, budget, mine
         page_start = _grown(page_start, room + 1)
     page_start[page + 1] = page_start[page] + nk
     below = (h - 1) % 2
-    first = split_ranked(mine, keys, k_start, k_end, bufs[below], write[below]) if h > 1 else k_start
+    # children of a two-level page are leaves (a height-1 run holds at most c keys): they are
+    # written without a root choice, so their keys are not ranked for them
+    first = split_ranked(mine, keys, k_start, k_end, bufs[below], write[below]) if h > 2 else k_start
     for t in range(kids):
         if k_end[t] > k_start[t]:
             queue[0, tail], queue[1, tail], queue[2, tail], queue[3, tail] = k_start[t], k_end[t], h - 1, budgets[t]
