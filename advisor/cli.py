@@ -67,7 +67,6 @@ from .export import check_destination, check_target, write_layout
 from .pictures import save_pictures
 from .progress import steps
 from .report import render_run
-from .warmup import start_warmup
 from .workload import load_workload
 
 app = typer.Typer(
@@ -109,7 +108,6 @@ def _run(
     query = read_query(log_sql)
     with steps() as progress:
         progress.step("reading the table and aggregating the log in DuckDB")
-        start_warmup()  # numba's set-up beside DuckDB's read (advisor.warmup)
         with load_workload(
             database, table, key, log, log_column, count_column, distinct_keys, memory_limit, query
         ) as wl:

@@ -18,6 +18,7 @@ from collections import deque
 from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
+from itertools import islice
 
 from .budget import Budget, BudgetSpec, resolve
 from .geometry import Geometry
@@ -228,13 +229,19 @@ def _rank(
     if uni_reads is None:
         uni_reads = evaluate(uni, fit).expected_page_reads
     ranked = [(uni_reads, "even split (nothing better found)", uni, None)]
+    todo = iter(candidates)
     with ThreadPoolExecutor(max_workers=RANK_THREADS) as pool:
-        jobs = deque((name, pool.submit(one, name, build)) for name, build in candidates)
+        # at most RANK_THREADS + 1 candidates submitted and not yet read: a finished layout
+        # waits in its future until read, and a slow first candidate would otherwise let every
+        # later one finish and wait beside it (a layout is about 40 MB at 10M keys)
+        jobs = deque((name, pool.submit(one, name, build)) for name, build in islice(todo, RANK_THREADS + 1))
         while jobs:
             name, job = jobs.popleft()  # the future is let go with its result once read
             step(name)
             found = job.result()
             del job
+            for name_next, build_next in islice(todo, 1):
+                jobs.append((name_next, pool.submit(one, name_next, build_next)))
             if found is not None:
                 ranked.append(found)
                 # only the best few are refined: the others' layouts are let go at once (memory)
