@@ -240,8 +240,9 @@ def _rank(
             step(name)
             found = job.result()
             del job
-            for name_next, build_next in islice(todo, 1):
-                jobs.append((name_next, pool.submit(one, name_next, build_next)))
+            following = next(todo, None)
+            if following is not None:
+                jobs.append((following[0], pool.submit(one, *following)))
             if found is not None:
                 ranked.append(found)
                 # only the best few are refined: the others' layouts are let go at once (memory)

@@ -65,6 +65,21 @@ def best_within(frontier, pages, height):
     return min((v for (pg, ht), v in frontier.items() if pg <= pages and ht <= height), default=np.inf)
 
 
+def check_against_brute_force(res, hist, frontier, pages, height) -> float:
+    """A budgeted result against the brute-force frontier: a valid tree within the budget, never
+    cheaper than the optimum, a dual bound never above it, and equal to it when proven; returns
+    the layout's expected page reads."""
+    check_layout(res.layout)
+    assert res.layout.pages <= pages and res.layout.depths().max() <= height
+    truth = best_within(frontier, pages, height) / hist.total
+    got = evaluate(res.layout, hist).expected_page_reads
+    assert res.dual_bound <= truth + 1e-9  # the Lagrangian bound never exceeds the optimum
+    assert got >= truth - 1e-9
+    if res.proven:
+        assert got == pytest.approx(truth, rel=1e-9, abs=1e-12)
+    return got
+
+
 @settings(max_examples=80, deadline=None)
 @given(data=st.data(), c=st.integers(1, 3))
 def test_constrained_exact_equals_brute_force(data, c):
@@ -75,15 +90,8 @@ def test_constrained_exact_equals_brute_force(data, c):
     for height in (hmin, hmin + 1, hmin + 3):
         for pages in sorted({fewest_pages(n, c), fewest_pages(n, c) + 1, n}):
             res = solve_within(hist, c, pages, height)
-            check_layout(res.layout)
-            assert res.layout.pages <= pages and res.layout.depths().max() <= height
-            truth = best_within(front, pages, height) / hist.total
-            got = evaluate(res.layout, hist).expected_page_reads
+            got = check_against_brute_force(res, hist, front, pages, height)
             assert got == pytest.approx(res.expected_page_reads, rel=1e-9)
-            assert res.dual_bound <= truth + 1e-9  # the Lagrangian bound never exceeds the optimum
-            assert got >= truth - 1e-9
-            if res.proven:
-                assert got == pytest.approx(truth, rel=1e-9, abs=1e-12)
 
 
 def test_full_page_lemma_holds_with_a_page_price():
@@ -149,15 +157,8 @@ def test_bplus_constrained_exact_equals_brute_force(data, L, F):
     for height in (hmin, hmin + 1, hmin + 3):
         for pages in sorted({even, even + 1, 2 * n}):
             res = solve_bplus_within(hist, L, F, pages, height)
-            check_layout(res.layout)
-            assert res.layout.pages <= pages and res.layout.depths().max() <= height
-            truth = best_within(front, pages, height) / hist.total
-            got = evaluate(res.layout, hist).expected_page_reads
+            got = check_against_brute_force(res, hist, front, pages, height)
             assert got == pytest.approx(res.expected_page_reads, rel=1e-9)
-            assert res.dual_bound <= truth + 1e-9
-            assert got >= truth - 1e-9
-            if res.proven:
-                assert got == pytest.approx(truth, rel=1e-9, abs=1e-12)
 
 
 def window_frontier(p, q, c, top):

@@ -14,10 +14,10 @@ from advisor.histogram import Histogram
 from advisor.layout import check_layout, evaluate
 from advisor.optimize import min_height
 from advisor.optimize.constrained import _Levels
-from advisor.optimize.restricted import _Tables, candidate_keys, lower_levels, restricted_resolve
+from advisor.optimize.restricted import _Tables, lower_levels, restricted_resolve, upper_keys, with_hottest
 from advisor.optimize.within import fewest_pages, within_budget_layout
 
-from .test_budget_exact import best_within, classic_frontier, draw_histogram
+from .test_budget_exact import check_against_brute_force, classic_frontier, draw_histogram
 
 
 def _prefix(hist: Histogram):
@@ -38,14 +38,7 @@ def test_every_key_a_candidate_is_the_brute_force_optimum(data, c):
             if n <= c:
                 assert res is None  # one page: nothing to re-solve
                 continue
-            check_layout(res.layout)
-            assert res.layout.pages <= pages and res.layout.depths().max() <= height
-            truth = best_within(front, pages, height) / hist.total
-            got = evaluate(res.layout, hist).expected_page_reads
-            assert got >= truth - 1e-9
-            assert res.dual_bound <= truth + 1e-9  # every key a candidate: the Lagrangian bound holds
-            if res.proven:
-                assert got == pytest.approx(truth, rel=1e-9, abs=1e-12)
+            check_against_brute_force(res, hist, front, pages, height)  # every key a candidate
 
 
 @pytest.mark.parametrize("seed", range(12))
@@ -77,7 +70,7 @@ def test_the_family_holds_the_layout_it_came_from(seed):
     height = min_height(n, c)
     start = within_budget_layout(hist, c, fewest_pages(n, c) + 3, height)
     lower = lower_levels(n, c, height)
-    cand = candidate_keys(start, hist, height, lower, hot=int(rng.integers(0, 30)))
+    cand = with_hottest(upper_keys(start, height, lower), hist, int(rng.integers(0, 30)))
     assert cand.size < n
     P, Q = _prefix(hist)
     base = evaluate(start, hist).expected_page_reads * hist.total
@@ -124,14 +117,7 @@ def test_bplus_every_boundary_a_candidate_is_the_brute_force_optimum(data, L, F)
             if n <= L:
                 assert res is None
                 continue
-            check_layout(res.layout)
-            assert res.layout.pages <= pages and res.layout.depths().max() <= height
-            truth = best_within(front, pages, height) / hist.total
-            got = evaluate(res.layout, hist).expected_page_reads
-            assert got >= truth - 1e-9
-            assert res.dual_bound <= truth + 1e-9
-            if res.proven:
-                assert got == pytest.approx(truth, rel=1e-9, abs=1e-12)
+            check_against_brute_force(res, hist, front, pages, height)
 
 
 @pytest.mark.parametrize("seed", range(10))
@@ -139,7 +125,7 @@ def test_bplus_tables_equal_the_exact_dp_and_hold_the_starting_layout(seed):
     from advisor.optimize.bplus import bplus_height, bplus_weights
     from advisor.optimize.bplus_constrained import _Levels as BplusLevels
     from advisor.optimize.bplus_restricted import _Tables as BplusTables
-    from advisor.optimize.bplus_restricted import candidate_bounds
+    from advisor.optimize.bplus_restricted import upper_bounds
     from advisor.optimize.bplus_within import bplus_within_layout
 
     rng = np.random.default_rng(200 + seed)
@@ -162,7 +148,7 @@ def test_bplus_tables_equal_the_exact_dp_and_hold_the_starting_layout(seed):
     if start is None:
         return
     lower = 1
-    bd = candidate_bounds(start, hist, height, lower, hot=0)
+    bd = np.unique(upper_bounds(start, n, height, lower))  # sorted, each once; no hot keys added
     base = evaluate(start, hist).expected_page_reads * hist.total
     tables = BplusTables(S, L, F, lam, bd, height, lower)
     assert tables.value <= base + lam * start.pages + 1e-6

@@ -29,7 +29,7 @@ from .bplus_restricted_kernel import (
 )
 from .constrained import ConstrainedResult
 from .near import subtree_ranges
-from .restricted import LOWER_OPS, MAX_CANDIDATES, affordable_candidates, bisect_over
+from .restricted import LOWER_OPS, MAX_CANDIDATES, affordable_candidates, bisect_over, upper_level_work
 
 
 def reach(leaf: int, F: int, h: int) -> int:
@@ -60,39 +60,20 @@ def with_hottest_bounds(base: np.ndarray, hist: Histogram, hot: int) -> np.ndarr
     return np.unique(np.concatenate([base, order, order + 1]))
 
 
-def candidate_bounds(layout: Layout, hist: Histogram, height: int, lower: int, hot: int) -> np.ndarray | None:
-    """The layout's upper boundaries (:func:`upper_bounds`) and both ends of the ``hot`` hottest keys."""
-    base = upper_bounds(layout, hist.n, height, lower)
-    return None if base is None else with_hottest_bounds(base, hist, hot)
-
-
 def bplus_restricted_work(n: int, leaf: int, F: int, height: int, lower: int, bd: np.ndarray) -> float:
     ops = float(n * leaf)
     for h in range(2, lower + 1):
         ops += n * min(n, reach(leaf, F, h)) * (reach(leaf, F, h - 1) + 1) * F
     for h in range(lower + 1, height + 1):
-        reach_h, reach_prev = reach(leaf, F, h), reach(leaf, F, h - 1)
-        inner = np.arange(bd.size) - np.searchsorted(bd, bd - reach_prev, side="left") + 1
-        acc = np.concatenate([[0.0], np.cumsum(inner, dtype=np.float64)])
-        rows = bd if h < height else bd[:1]
-        b_hi = np.searchsorted(bd, rows + reach_h, side="right")
-        ops += F * float((acc[b_hi] - acc[np.arange(rows.size) + 1]).sum())
+        ops += F * upper_level_work(bd, bd, reach(leaf, F, h), reach(leaf, F, h - 1), h == height, 1)
     return ops
 
 
 class _Tables:
     def __init__(self, S, leaf: int, F: int, lam: float, bd: np.ndarray, height: int, lower: int) -> None:
         n = S.size - 1
-        self.S, self.leaf, self.F, self.lam, self.bd, self.height, self.lower, self.n = (
-            S,
-            leaf,
-            F,
-            lam,
-            bd,
-            height,
-            lower,
-            n,
-        )
+        self.S, self.leaf, self.F, self.lam, self.bd = S, leaf, F, lam, bd
+        self.height, self.lower, self.n = height, lower, n
         self.A = [bp_leaf_level(S, leaf, lam, min(leaf, n))]
         for h in range(2, lower + 1):
             self.A.append(bp_lower_level(S, leaf, F, lam, self.A[-1], min(n, reach(leaf, F, h))))

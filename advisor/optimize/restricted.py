@@ -61,12 +61,6 @@ def with_hottest(base: np.ndarray, hist: Histogram, hot: int) -> np.ndarray:
     return np.unique(np.concatenate([base, hist.score_order[:hot].astype(np.int64)]))
 
 
-def candidate_keys(layout: Layout, hist: Histogram, height: int, lower: int, hot: int) -> np.ndarray | None:
-    """Keys of the layout's upper pages (:func:`upper_keys`) and the ``hot`` hottest."""
-    base = upper_keys(layout, height, lower)
-    return None if base is None else with_hottest(base, hist, hot)
-
-
 class _Tables:
     """The lower and candidate-restricted tables for one price, and the tree they give."""
 
@@ -87,10 +81,6 @@ class _Tables:
             self.R[h] = restricted_level(P, Q, c, lam, self.lp, self.rp, self.R[h - 1], cap, cap_prev, rows)
         self.value = float(self.R[height][0, m])
         self.n = n
-
-    def _weight(self, i: int, length: int) -> float:
-        P, Q = self.P, self.Q
-        return P[i + length] - P[i] + Q[i + length + 1] - Q[i]
 
     def _expand_lower(self, h: int, i: int, L: int):
         """(keys, children) of the page at the top of the best <= h-level tree on i..i+L-1."""
@@ -169,14 +159,20 @@ def restricted_work(n: int, c: int, height: int, lower: int, cand: np.ndarray) -
     lp = np.concatenate([[0], cand + 1])
     rp = np.concatenate([cand, [n]])
     for h in range(lower + 1, height + 1):
-        reach_h, reach_prev = capacity_of(c, h), capacity_of(c, h - 1)
-        # roots k a last child ending at boundary b can have: lp[k + 1] >= rp[b] - reach_prev
-        inner = np.arange(rp.size) - np.searchsorted(lp, rp - reach_prev, side="left") + 1
-        acc = np.concatenate([[0.0], np.cumsum(inner, dtype=np.float64)])
-        rows = lp if h < height else lp[:1]
-        b_hi = np.searchsorted(rp, rows + reach_h, side="right")  # ends within reach, exclusive
-        ops += c * float((acc[b_hi] - acc[np.arange(rows.size)]).sum())
+        ops += c * upper_level_work(lp, rp, capacity_of(c, h), capacity_of(c, h - 1), h == height, 0)
     return ops
+
+
+def upper_level_work(lp: np.ndarray, rp: np.ndarray, reach_h: int, reach_prev: int, top: bool, first: int) -> float:
+    """Inner-loop steps of one candidate-indexed level (both tree families): per interval start
+    a, the ends b within ``reach_h`` keys times the roots k that leave the last child within
+    ``reach_prev`` keys (lp[k + 1] >= rp[b] - reach_prev); ``top``: the root's row only;
+    ``first``: the first end counted is a + first."""
+    inner = np.arange(rp.size) - np.searchsorted(lp, rp - reach_prev, side="left") + 1
+    acc = np.concatenate([[0.0], np.cumsum(inner, dtype=np.float64)])
+    rows = lp[:1] if top else lp
+    b_hi = np.searchsorted(rp, rows + reach_h, side="right")  # ends within reach, exclusive
+    return float((acc[b_hi] - acc[np.arange(rows.size) + first]).sum())
 
 
 def affordable_candidates(every: np.ndarray, base: np.ndarray | None, offer, work, ops: float) -> np.ndarray | None:
