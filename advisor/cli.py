@@ -21,6 +21,7 @@ from .budget import BudgetSpec
 from .cli_build import build_cmd, probe_cmd
 from .cli_options import (
     ChildOpt,
+    ColumnsOpt,
     CountColumnOpt,
     CurrentOpt,
     DatabaseArg,
@@ -30,6 +31,7 @@ from .cli_options import (
     ExportOpt,
     FanoutOpt,
     FillOpt,
+    FooterCachedOpt,
     ForceOpt,
     FrontierOpt,
     HeaderOpt,
@@ -45,7 +47,9 @@ from .cli_options import (
     LogSqlOpt,
     MaxHeightOpt,
     MaxPagesOpt,
+    MaxRowGroupsOpt,
     MemoryOpt,
+    MinGroupRowsOpt,
     ModelOpt,
     OrderOpt,
     PageSizeOpt,
@@ -53,6 +57,7 @@ from .cli_options import (
     PoolOpt,
     RecordOpt,
     ReplayOpt,
+    RowGroupRowsOpt,
     ScanOpt,
     SmoothOpt,
     StorageOpt,
@@ -60,6 +65,7 @@ from .cli_options import (
     TableOpt,
     TruncateOpt,
 )
+from .cli_rowgroups import parse_columns, recommend_parquet
 from .cli_support import check_model, guard, parse_storage, read_query, warn
 from .demo import DEMO_KEY, DEMO_LOG, DEMO_TABLE, build_demo
 from .errors import OutputRefused, SettingInvalid
@@ -67,6 +73,7 @@ from .export import check_destination, check_target, write_layout
 from .pictures import save_pictures
 from .progress import steps
 from .report import render_run
+from .rowgroups.plan import EVEN_ROWS, MIN_ROWS, RowGroupOptions
 from .workload import load_workload
 
 app = typer.Typer(
@@ -180,10 +187,37 @@ def recommend_cmd(
     max_pages: MaxPagesOpt = "even",
     max_height: MaxHeightOpt = "even",
     show_frontier: FrontierOpt = True,
+    columns: ColumnsOpt = None,
+    footer_cached: FooterCachedOpt = False,
+    row_group_rows: RowGroupRowsOpt = EVEN_ROWS,
+    max_row_groups: MaxRowGroupsOpt = "even",
+    min_group_rows: MinGroupRowsOpt = MIN_ROWS,
 ) -> None:
     """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
     with guard():
         check_model(model, keys_per_page, fanout)
+        if model == "parquet":
+            if export is not None or scan_to or svg or current:
+                raise SettingInvalid(
+                    "--model parquet takes no --export, --scan-to, --svg or --current yet; "
+                    "write the file with advisor build --model parquet"
+                )
+            opts = RowGroupOptions(
+                parse_columns(columns),
+                footer_cached,
+                row_group_rows,
+                max_row_groups,
+                min_group_rows,
+                show_frontier,
+                order_column,
+                holdout,
+            )
+            if html is not None:
+                raise SettingInvalid("--html is not drawn for --model parquet yet; use --json")
+            recommend_parquet(
+                database, table, key, log, log_sql, log_column, count_column, memory_limit, opts, as_json, html
+            )
+            return
         unused = [
             (holdout != 0.2 and not order_column, "--holdout has no effect without --order-column"),
             (replay_limit != 20_000_000 and not order_column, "--replay-limit has no effect without --order-column"),

@@ -17,12 +17,14 @@ from .cli_options import (
     OUT,
     WL,
     ChildOpt,
+    ColumnsOpt,
     CountColumnOpt,
     DatabaseArg,
     DistinctOpt,
     ExactOpt,
     FanoutOpt,
     FillOpt,
+    FooterCachedOpt,
     ForceOpt,
     HeaderOpt,
     InternalFillOpt,
@@ -34,15 +36,20 @@ from .cli_options import (
     LogSqlOpt,
     MaxHeightOpt,
     MaxPagesOpt,
+    MaxRowGroupsOpt,
     MemoryOpt,
+    MinGroupRowsOpt,
     RecordOpt,
+    RowGroupRowsOpt,
     SmoothOpt,
     TableOpt,
     option,
 )
+from .cli_rowgroups import build_parquet_cmd, parse_columns, probe_parquet_cmd
 from .cli_support import check_model, guard, read_query
 from .errors import LayoutInvalid, OutputRefused, SettingInvalid
 from .report import render_probe
+from .rowgroups.plan import EVEN_ROWS, MIN_ROWS, RowGroupOptions
 from .structures import structure_names
 from .workload import load_workload
 
@@ -74,7 +81,15 @@ def build_cmd(
     record_pointer: RecordOpt = PageSettings.record_pointer,
     child_pointer: ChildOpt = PageSettings.child_pointer,
     key_bytes: KeyBytesOpt = None,
-    model: Annotated[str, option("--model", "Index structure: btree or bplus.", GEO, metavar="btree|bplus")] = "btree",
+    model: Annotated[
+        str,
+        option(
+            "--model",
+            "Index structure: btree, bplus, or parquet (a key-sorted Parquet file; --out FILE.parquet).",
+            GEO,
+            metavar="btree|bplus|parquet",
+        ),
+    ] = "btree",
     fanout: FanoutOpt = None,
     fill_factor: FillOpt = 1.0,
     internal_fill: InternalFillOpt = None,
@@ -95,11 +110,38 @@ def build_cmd(
     memory_limit: MemoryOpt = None,
     force: ForceOpt = False,
     as_json: JsonOpt = False,
+    columns: ColumnsOpt = None,
+    footer_cached: FooterCachedOpt = False,
+    row_group_rows: RowGroupRowsOpt = EVEN_ROWS,
+    max_row_groups: MaxRowGroupsOpt = "even",
+    min_group_rows: MinGroupRowsOpt = MIN_ROWS,
 ) -> None:
-    """Write the advised (or even-split) layout as a file of fixed-size pages you can probe."""
+    """Write the advised (or even-split) layout as a file of fixed-size pages, or as a key-sorted
+    Parquet file with the advised row groups (--model parquet), that you can probe."""
     with guard():
         from .advise import plan_one
         from .build import build_index
+
+        if model == "parquet":
+            opts = RowGroupOptions(
+                parse_columns(columns), footer_cached, row_group_rows, max_row_groups, min_group_rows, False
+            )
+            build_parquet_cmd(
+                database,
+                table,
+                key,
+                log,
+                log_sql,
+                log_column,
+                count_column,
+                memory_limit,
+                opts,
+                out,
+                layout,
+                force,
+                as_json,
+            )
+            return
 
         if layout not in ("advised", "even"):
             raise SettingInvalid(f"--layout must be advised or even, got {layout!r}")
@@ -146,7 +188,10 @@ def build_cmd(
 
 
 def probe_cmd(
-    index_file: Annotated[Path, typer.Argument(help="An index file written by advisor build.", metavar="FILE")],
+    index_file: Annotated[
+        Path,
+        typer.Argument(help="An index file written by advisor build, or a key-sorted .parquet file.", metavar="FILE"),
+    ],
     database: DatabaseArg,
     log: Annotated[
         str,
@@ -177,10 +222,27 @@ def probe_cmd(
         bool, option("--cold", "Drop the file from the operating system's page cache before the replay.", WL)
     ] = False,
     as_json: JsonOpt = False,
+    table: Annotated[
+        str | None,
+        option("--table", "Parquet: the table the file holds (default: from its metadata).", IN, metavar="NAME"),
+    ] = None,
+    key: Annotated[
+        str | None, option("--key", "Parquet: the key column (default: from its metadata).", IN, metavar="COLUMN")
+    ] = None,
+    seed: Annotated[int, option("--seed", "Parquet: seed of the lookup sample.", IN, metavar="N")] = 1,
 ) -> None:
-    """Replay a log against an index file: page reads counted against the model's prediction."""
+    """Replay a log against an index file (page reads counted against the model's prediction), or
+    sampled lookups through DuckDB against a Parquet file (bytes counted by DuckDB's profiler)."""
     with guard():
         from .build import probe_index
+
+        if index_file.suffix.lower() == ".parquet":
+            res = probe_parquet_cmd(
+                index_file, database, log, log_column, count_column, table, key, limit or 20_000, seed, as_json
+            )
+            if res["wrong_rows"]:
+                raise LayoutInvalid(f"{res['wrong_rows']} rows found in the file differ from the table")
+            return
 
         res = probe_index(index_file, database, log, log_column, count_column, order_column, limit, pool_pages, cold)
         if as_json:

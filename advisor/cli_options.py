@@ -70,9 +70,10 @@ ModelOpt = Annotated[
     str,
     option(
         "--model",
-        "Index structure: btree (keys in every page), bplus (keys only in leaves) or both side by side.",
+        "Index structure: btree (keys in every page), bplus (keys only in leaves), both side by side, "
+        "or parquet (row groups of a key-sorted Parquet file).",
         GEO,
-        metavar="btree|bplus|both",
+        metavar="btree|bplus|both|parquet",
     ),
 ]
 FanoutOpt = Annotated[
@@ -231,4 +232,36 @@ ExactOpt = Annotated[
         min=0.0,
         metavar="SECONDS",
     ),
+]
+
+# Parquet row groups (--model parquet)
+PQ = "Parquet row groups (--model parquet)"
+ColumnsOpt = Annotated[
+    str | None,
+    option("--columns", "Columns a lookup returns, comma-separated (default: every column).", PQ, metavar="A,B"),
+]
+FooterCachedOpt = Annotated[
+    bool, option("--footer-cached", "The reader keeps the file's metadata between queries (no footer read).", PQ)
+]
+RowGroupRowsOpt = Annotated[
+    int,
+    option(
+        "--row-group-rows",
+        "Rows per group of the even file (DuckDB's default 122880; set your writer's).",
+        PQ,
+        min=1,
+        metavar="N",
+    ),
+]
+MaxRowGroupsOpt = Annotated[
+    str,
+    option(
+        "--max-row-groups",
+        "Most row groups of the advised file: even (as many as the even file), a ratio such as 1.5x, a count, or none.",
+        PQ,
+        metavar="SPEC",
+    ),
+]
+MinGroupRowsOpt = Annotated[
+    int, option("--min-group-rows", "Fewest rows in any advised row group.", PQ, min=1, metavar="N")
 ]

@@ -81,7 +81,7 @@ def parse_storage(text: str) -> StorageProfile:
 
 
 def check_model(model: str, keys_per_page, fanout) -> None:
-    if model not in ("btree", "bplus", "both"):
-        raise SettingInvalid(f"--model must be btree, bplus or both, got {model!r}")
+    if model not in ("btree", "bplus", "both", "parquet"):
+        raise SettingInvalid(f"--model must be btree, bplus, both or parquet, got {model!r}")
     if model in ("bplus", "both") and keys_per_page and not fanout:
         raise SettingInvalid("--model bplus with --keys-per-page needs --fanout")
