@@ -8,7 +8,7 @@ CLI prints and the report draws)."""
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -234,6 +234,7 @@ def plan_parquet(wl: Workload, opts: RowGroupOptions, on_step=None) -> dict:
     inst = instance(hist.p, hist.q, table.rows_per_key, table.null_rows, model.a, model.b, opts.min_group_rows)
     total_rows = table.rows
     even = even_bounds(total_rows, opts.row_group_rows)
+    model = replace(model, file_bytes_hint=model.file_bytes(np.diff(even)))
     even_groups = even.shape[0] - 1
     max_groups = max(1, int(total_rows // max(inst.min_rows, 1))) if inst.min_rows > 0 else max(1, hist.n)
     G, rule = budget_groups(opts.max_row_groups, even_groups, max_groups)

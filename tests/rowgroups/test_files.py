@@ -186,3 +186,29 @@ def test_probe_of_a_file_written_elsewhere(clustered, tmp_path):
     assert code == 0, err
     res = json.loads(out)
     assert res["wrong_rows"] == 0 and res["lookups"] == 200
+
+
+@pytest.mark.parametrize("rows", [200_000, 1_100_000])
+def test_reader_model_matches_duckdb_profiler(tmp_path, rows):
+    """DuckDB's first read grows with the file (16 KiB up to 16 MiB files, then the power of two at
+    or above a 1,024th of the file); the footer read and a group's chunks equal its count."""
+    from advisor.rowgroups.sizes import footer_read
+    from advisor.rowgroups.writer import read_groups
+
+    rng = np.random.default_rng(1)
+    t = pa.table({"k": np.arange(rows, dtype=np.int64), "x": rng.integers(0, 2**62, rows)})
+    f = tmp_path / "t.parquet"
+    pq.write_table(t, f, compression="none", row_group_size=rows // 4, write_page_index=False, use_dictionary=False)
+    groups = read_groups(f)
+    con = duckdb.connect()
+    prof = tmp_path / "prof.json"
+    con.execute("PRAGMA enable_profiling = 'json'")
+    con.execute(f"SET profiling_output = '{prof}'")
+
+    def counted(v):
+        con.execute(f"SELECT * FROM read_parquet('{f}') WHERE k = {v}").fetchall()
+        return json.loads(prof.read_text())["io"]["total_bytes_read"]
+
+    footer = footer_read(groups.footer_len, groups.file_bytes)
+    assert counted(-5) == footer
+    assert counted(rows // 4 + 3) == footer + groups.read_bytes(["k", "x"])[1]
