@@ -84,6 +84,31 @@ def main() -> None:
         plan, t_plan = run(["recommend", *base, "--json", "--no-frontier"])
         _, t_plan_cli_frontier = run(["recommend", *base, "--json"])
         got = {}
+        dcopy, _ = run(
+            [
+                "probe",
+                copy,
+                db,
+                "--log",
+                "lookups",
+                "--limit",
+                a.probe,
+                "--table",
+                "orders",
+                "--key",
+                "order_id",
+                "--json",
+            ]
+        )
+        got["duckdb-copy"] = (
+            {
+                "row_groups": dcopy["row_groups"],
+                "modelled_bytes_per_lookup": float("nan"),
+                "bytes": copy.stat().st_size,
+            },
+            t_copy,
+            dcopy,
+        )
         for layout in ("even", "advised"):
             f = tmp / f"{kind}-{layout}.parquet"
             built, t_build = run(["build", *base, "--out", f, "--layout", layout, "--json"])
@@ -97,10 +122,10 @@ def main() -> None:
         f"{'groups/lk':>9} {'ms/lookup':>9} {'file MiB':>8} {'build s':>7}"
     )
     for kind, _p, got, *_ in rows:
-        for layout in ("even", "advised"):
+        for layout in ("duckdb-copy", "even", "advised"):
             built, t_build, probe = got[layout]
             print(
-                f"{kind:10} {layout:8} {built['row_groups']:>6} {probe['bytes_per_lookup'] / 1024:>11,.1f} "
+                f"{kind:10} {layout:11} {built['row_groups']:>6} {probe['bytes_per_lookup'] / 1024:>11,.1f} "
                 f"{probe['predicted_bytes_per_lookup'] / 1024:>10,.1f} "
                 f"{built['modelled_bytes_per_lookup'] / 1024:>9,.1f} "
                 f"{probe['row_groups_per_lookup']:>9.3f} {probe['microseconds_per_lookup'] / 1000:>9.2f} "
@@ -108,14 +133,17 @@ def main() -> None:
             )
     print()
     print(
-        f"{'workload':10} {'counted even/advised':>20} {'GROUP BY s':>10} {'plan s':>7} {'ratio':>6} "
+        f"{'workload':10} {'counted even/advised':>20} {'copy/advised':>12} {'GROUP BY s':>10} {'plan s':>7} "
+        f"{'ratio':>6} "
         f"{'w/ frontier s':>13} {'COPY s':>7} {'build adv s':>11} {'ratio':>6}"
     )
     for kind, _p, got, t_group, t_plan, t_front, t_copy in rows:
         ratio = got["even"][2]["bytes_per_lookup"] / got["advised"][2]["bytes_per_lookup"]
+        ratio_copy = got["duckdb-copy"][2]["bytes_per_lookup"] / got["advised"][2]["bytes_per_lookup"]
         tb = got["advised"][1]
         print(
-            f"{kind:10} {ratio:>20.2f} {t_group:>10.2f} {t_plan:>7.2f} {t_plan / t_group:>6.1f} {t_front:>13.2f} "
+            f"{kind:10} {ratio:>20.2f} {ratio_copy:>12.2f} {t_group:>10.2f} {t_plan:>7.2f} "
+            f"{t_plan / t_group:>6.1f} {t_front:>13.2f} "
             f"{t_copy:>7.2f} {tb:>11.2f} {tb / t_copy:>6.1f}"
         )
     print("\nplan s and build s are whole command runs (process start, DuckDB's aggregation of the log, the byte")

@@ -56,7 +56,8 @@ def build_parquet(wl: Workload, opts: RowGroupOptions, out: Path, layout: str, o
         "advice": "test on a copy of your data before production use",
     }
     step(f"writing {len(bounds) - 1:,} row groups")
-    write_groups(wl, bounds, out, meta)
+    meta["encodings"] = {k: v for k, v in run["_writer"].items() if k == "use_dictionary"}
+    write_groups(wl, bounds, out, meta, run["_writer"])
     groups = read_groups(out)
     pred = file_prediction(wl.hist, table.rows_per_key, groups, columns)
     footer = 0.0 if opts.footer_cached else groups.footer_bytes

@@ -281,6 +281,7 @@ def plan_parquet(wl: Workload, opts: RowGroupOptions, on_step=None) -> dict:
         "frontier": [_public(p, even_fig) for p in points] if opts.frontier else [],
         "advised_first_keys": _first_keys(wl, chosen["_starts"]),
         "_advised_starts": chosen["_starts"],
+        "_writer": model.writer,
     }
     if opts.order_column and opts.holdout > 0:
         step("held-out check: fitting on the earlier part of the log")

@@ -19,13 +19,13 @@ import numpy as np
 from ..atomic import atomic_path
 from ..errors import InputInvalid
 from ..workload import Workload, quote, table_sql
-from .sizes import WRITER, chunk_sizes, footer_read
+from .sizes import chunk_sizes, footer_read
 
 META_KEY = b"advisor"
 BATCH_ROWS = 65_536
 
 
-def write_groups(wl: Workload, bounds: np.ndarray, out: Path, meta: dict, on_group=None) -> None:
+def write_groups(wl: Workload, bounds: np.ndarray, out: Path, meta: dict, writer: dict, on_group=None) -> None:
     """Stream the table sorted by key into ``out`` with groups cut at row ``bounds``."""
     import pyarrow as pa
     import pyarrow.parquet as pq
@@ -42,7 +42,7 @@ def write_groups(wl: Workload, bounds: np.ndarray, out: Path, meta: dict, on_gro
     batches = iter(reader)
     with atomic_path(out) as tmp:
         with pq.ParquetWriter(
-            str(tmp), schema, sorting_columns=[pq.SortingColumn(key_index, nulls_first=False)], **WRITER
+            str(tmp), schema, sorting_columns=[pq.SortingColumn(key_index, nulls_first=False)], **writer
         ) as w:
             for g, size in enumerate(sizes):
                 while have < size:

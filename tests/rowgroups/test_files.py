@@ -117,7 +117,7 @@ def test_probe_counts_equal_prediction_and_advised_reads_less(clustered, tmp_pat
         assert res["bytes_per_lookup"] == pytest.approx(res["predicted_bytes_per_lookup"], rel=0.02)
         got[layout] = res
     assert got["even"]["found"] == got["advised"]["found"]  # the same sample, the same answers
-    assert got["advised"]["bytes_per_lookup"] * 2 < got["even"]["bytes_per_lookup"]
+    assert got["advised"]["bytes_per_lookup"] * 1.5 < got["even"]["bytes_per_lookup"]
 
 
 def test_scattered_advice_never_reads_more(tmp_path):
@@ -212,3 +212,36 @@ def test_reader_model_matches_duckdb_profiler(tmp_path, rows):
     footer = footer_read(groups.footer_len, groups.file_bytes)
     assert counted(-5) == footer
     assert counted(rows // 4 + 3) == footer + groups.read_bytes(["k", "x"])[1]
+
+
+@pytest.mark.parametrize(
+    "key_sql",
+    ["'sku-' || lpad(i::VARCHAR, 6, '0')", "DATE '1950-01-01' + i::INTEGER", "(i * 0.5)::DOUBLE", "i::INTEGER"],
+)
+def test_key_types_build_and_probe(tmp_path, key_sql):
+    """Keys of other types: the file equals the table and DuckDB's counted bytes equal the
+    prediction (a string key is dictionary- or plain-encoded, an integer key delta-encoded)."""
+    db = str(tmp_path / "types.duckdb")
+    con = duckdb.connect(db)
+    con.execute(f"CREATE TABLE items AS SELECT {key_sql} AS k, i % 7 AS x FROM range(12000) t(i)")
+    con.execute(
+        "CREATE TABLE lookups AS SELECT k FROM items, range(3) r(j) WHERE hash(k) % 10 = 0 "
+        "UNION ALL SELECT k FROM items WHERE hash(k) % 50 = 1 "
+        "UNION ALL SELECT k FROM (SELECT k FROM items ORDER BY k DESC LIMIT 300), range(20) r(j)"
+    )
+    con.close()
+    f = tmp_path / "t.parquet"
+    args = ("--table", "items", "--key", "k", "--log", "lookups", "--row-group-rows", "3000", "--min-group-rows", "100")
+    code, out, err = _cli("build", db, *args, "--model", "parquet", "--out", f, "--json")
+    assert code == 0, err
+    con = duckdb.connect(db, read_only=True)
+    diff = con.execute(
+        f"SELECT count(*) FROM ((SELECT * FROM items EXCEPT ALL SELECT * FROM read_parquet('{f}')) "
+        f"UNION ALL (SELECT * FROM read_parquet('{f}') EXCEPT ALL SELECT * FROM items))"
+    ).fetchall()[0][0]
+    assert diff == 0
+    code, out, err = _cli("probe", f, db, "--log", "lookups", "--limit", "200", "--json")
+    assert code == 0, err
+    res = json.loads(out)
+    assert res["wrong_rows"] == 0
+    assert res["bytes_per_lookup"] == pytest.approx(res["predicted_bytes_per_lookup"], rel=0.02)
