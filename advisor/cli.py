@@ -197,10 +197,10 @@ def recommend_cmd(
     with guard():
         check_model(model, keys_per_page, fanout)
         if model == "parquet":
-            if export is not None or scan_to or svg or current:
+            if scan_to or svg or current or html is not None:
                 raise SettingInvalid(
-                    "--model parquet takes no --export, --scan-to, --svg or --current yet; "
-                    "write the file with advisor build --model parquet"
+                    "--model parquet takes no --scan-to, --svg, --html or --current yet; "
+                    "use --json, --export, or write the file with advisor build --model parquet"
                 )
             opts = RowGroupOptions(
                 parse_columns(columns),
@@ -212,10 +212,19 @@ def recommend_cmd(
                 order_column,
                 holdout,
             )
-            if html is not None:
-                raise SettingInvalid("--html is not drawn for --model parquet yet; use --json")
             recommend_parquet(
-                database, table, key, log, log_sql, log_column, count_column, memory_limit, opts, as_json, html
+                database,
+                table,
+                key,
+                log,
+                log_sql,
+                log_column,
+                count_column,
+                memory_limit,
+                opts,
+                as_json,
+                export,
+                force,
             )
             return
         unused = [

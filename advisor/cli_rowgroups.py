@@ -26,15 +26,26 @@ def _public(run: dict) -> dict:
     return {k: v for k, v in run.items() if not k.startswith("_")}
 
 
-def recommend_parquet(database, table, key, log, log_sql, log_column, count_column, memory_limit, opts, as_json, html):
+def recommend_parquet(
+    database, table, key, log, log_sql, log_column, count_column, memory_limit, opts, as_json, export, force
+):
+    from .export import check_destination, check_target
+    from .rowgroups.export import write_groups_table
     from .rowgroups.plan import plan_parquet
     from .rowgroups.report import render_plan
 
+    if export is not None:
+        check_destination(export)
+        check_target(export, force)
     query = read_query(log_sql)
     with steps() as progress:
         progress.step("reading the table and aggregating the log in DuckDB")
         with load_workload(database, table, key, log, log_column, count_column, True, memory_limit, query) as wl:
-            run = _public(plan_parquet(wl, opts, progress.step))
+            full = plan_parquet(wl, opts, progress.step)
+            if export is not None:
+                progress.step("writing the export")
+                full["exports"] = [write_groups_table(wl, *full["_advised_groups"], export, force)]
+            run = _public(full)
     if as_json:
         print(json.dumps(run, indent=2, default=str))
     else:

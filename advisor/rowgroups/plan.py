@@ -281,6 +281,7 @@ def plan_parquet(wl: Workload, opts: RowGroupOptions, on_step=None) -> dict:
         "frontier": [_public(p, even_fig) for p in points] if opts.frontier else [],
         "advised_first_keys": _first_keys(wl, chosen["_starts"]),
         "_advised_starts": chosen["_starts"],
+        "_advised_groups": _group_table(inst, chosen["_starts"], hist.total),
         "_writer": model.writer,
     }
     if opts.order_column and opts.holdout > 0:
@@ -288,6 +289,15 @@ def plan_parquet(wl: Workload, opts: RowGroupOptions, on_step=None) -> dict:
         out["holdout"] = _holdout(wl, opts, table, model, even, G)
     out["advice"] = advice_sentences(out)
     return out
+
+
+def _group_table(inst: Instance, starts: np.ndarray, weight: float) -> tuple:
+    """(starts, rows, lookup share) of each advised group, for the export."""
+    ends = np.append(starts[1:], inst.n)
+    rows = inst.S[ends] - inst.S[starts]
+    rows[-1] += inst.tail
+    share = (inst.U[ends] - inst.V[starts]) / weight if weight > 0 else np.zeros(starts.shape[0])
+    return starts, rows, share
 
 
 def _public(point: dict, even: dict) -> dict:

@@ -245,3 +245,23 @@ def test_key_types_build_and_probe(tmp_path, key_sql):
     res = json.loads(out)
     assert res["wrong_rows"] == 0
     assert res["bytes_per_lookup"] == pytest.approx(res["predicted_bytes_per_lookup"], rel=0.02)
+
+
+def test_export_lists_the_advised_groups(clustered, tmp_path):
+    out_csv = tmp_path / "groups.csv"
+    code, out, err = _cli(
+        "recommend", clustered, *COMMON, *SMALL, "--model", "parquet", "--json", "--no-frontier", "--export", out_csv
+    )
+    assert code == 0, err
+    run = json.loads(out)
+    con = duckdb.connect()
+    rows = con.execute(
+        f"SELECT first_key, last_key, rows, lookup_share FROM read_csv('{out_csv}') ORDER BY 1"
+    ).fetchall()
+    assert [r[0] for r in rows] == run["advised_first_keys"]
+    assert sum(r[2] for r in rows) == KEYS
+    assert all(a[1] < b[0] for a, b in zip(rows, rows[1:], strict=False))
+    # every hit reads one group; a miss reads one or none
+    assert run["hits"] / run["lookups"] - 1e-9 <= sum(r[3] for r in rows) <= 1 + 1e-9
+    code, out, err = _cli("recommend", clustered, *COMMON, "--model", "parquet", "--export", out_csv)
+    assert code == 7 and len(err.strip().splitlines()) == 1
