@@ -197,9 +197,9 @@ def recommend_cmd(
     with guard():
         check_model(model, keys_per_page, fanout)
         if model == "parquet":
-            if scan_to or svg or current or html is not None:
+            if svg or current or html is not None:
                 raise SettingInvalid(
-                    "--model parquet takes no --scan-to, --svg, --html or --current yet; "
+                    "--model parquet takes no --svg, --html or --current yet; "
                     "use --json, --export, or write the file with advisor build --model parquet"
                 )
             opts = RowGroupOptions(
@@ -211,6 +211,7 @@ def recommend_cmd(
                 show_frontier,
                 order_column,
                 holdout,
+                scan_to,
             )
             recommend_parquet(
                 database,

@@ -9,7 +9,16 @@ from pathlib import Path
 import numpy as np
 
 from ..workload import Workload
-from .plan import RowGroupOptions, chosen_columns, cut_bounds, even_bounds, group_reads, plan_parquet, read_table
+from .plan import (
+    RowGroupOptions,
+    Traffic,
+    chosen_columns,
+    cut_bounds,
+    even_bounds,
+    group_reads,
+    plan_parquet,
+    read_table,
+)
 from .writer import read_groups, write_groups
 
 
@@ -22,8 +31,8 @@ def file_prediction(hist, rows_per_key: np.ndarray, groups, columns) -> dict:
     if W <= 0:
         return {"bytes": groups.footer_bytes, "groups": 0.0}
     return {
-        "bytes": groups.footer_bytes + group_reads(hist, S, b, groups.read_bytes(columns)) / W,
-        "groups": group_reads(hist, S, b, np.ones(groups.rows.shape[0])) / W,
+        "bytes": groups.footer_bytes + group_reads(Traffic(hist), S, b, groups.read_bytes(columns)) / W,
+        "groups": group_reads(Traffic(hist), S, b, np.ones(groups.rows.shape[0])) / W,
     }
 
 

@@ -90,8 +90,26 @@ def traffic(p: np.ndarray, q: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return U, V
 
 
-def instance(p, q, rows, tail: float, a: float, b: float, min_rows: float) -> Instance:
+def add_ranges(U: np.ndarray, V: np.ndarray, first, last, weight) -> tuple[np.ndarray, np.ndarray]:
+    """U and V with range scans added: a scan over key ranks first..last (first = last + 1 for a
+    range holding no key: it reads a group only if it lies inside one) reads group i..j-1 exactly
+    when i <= last and j - 1 >= first, so it counts in U[j] unless first >= j and in V[i] when
+    last < i: the same form, and the same proof."""
+    n = U.shape[0] - 1
+    first = np.clip(np.asarray(first, dtype=np.int64), 0, n)
+    last = np.clip(np.asarray(last, dtype=np.int64), -1, n - 1)
+    w = np.asarray(weight, dtype=np.float64)
+    at_or_after = np.cumsum(np.bincount(first, weights=w, minlength=n + 1)[::-1])[::-1]
+    before = np.cumsum(np.bincount(last + 1, weights=w, minlength=n + 1))
+    return U + w.sum() - at_or_after, V + before
+
+
+def instance(p, q, rows, tail: float, a: float, b: float, min_rows: float, scans=None) -> Instance:
+    """The problem for hit weights p, gap weights q, rows per key and the byte cost of a group
+    read; ``scans`` (first ranks, last ranks, weights) adds range scans."""
     U, V = traffic(np.asarray(p, dtype=np.float64), np.asarray(q, dtype=np.float64))
+    if scans is not None and len(scans[2]):
+        U, V = add_ranges(U, V, *scans)
     S = np.zeros(len(rows) + 1)
     np.cumsum(np.asarray(rows, dtype=np.float64), out=S[1:])
     m = min(float(min_rows), float(S[-1] + tail))

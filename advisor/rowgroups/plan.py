@@ -8,7 +8,7 @@ CLI prints and the report draws)."""
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -34,6 +34,7 @@ class RowGroupOptions:
     frontier: bool = True
     order_column: str | None = None
     holdout: float = 0.2
+    scan_to: str | None = None
 
 
 @dataclass(frozen=True)
@@ -47,6 +48,29 @@ class Table:
     @property
     def rows(self) -> int:
         return int(self.rows_per_key.sum() + self.null_rows)
+
+
+@dataclass(frozen=True)
+class Traffic:
+    """What the file answers: point lookups (a histogram) and range scans (first and last key
+    rank of each scan's range, inclusive, and its weight; first = last + 1 when no key is inside)."""
+
+    points: Histogram
+    first: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
+    last: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
+    weight: np.ndarray = field(default_factory=lambda: np.zeros(0))
+
+    @property
+    def scans(self) -> float:
+        return float(self.weight.sum())
+
+    @property
+    def total(self) -> float:
+        return self.points.total + self.scans
+
+    def instance(self, rows_per_key, tail, a, b, min_rows) -> Instance:
+        scans = (self.first, self.last, self.weight) if self.weight.shape[0] else None
+        return instance(self.points.p, self.points.q, rows_per_key, tail, a, b, min_rows, scans)
 
 
 def budget_groups(spec: str, even_groups: int, max_groups: int) -> tuple[int, str]:
@@ -124,13 +148,16 @@ def sample_tables(wl: Workload, table: Table) -> list:
     return out
 
 
-def group_reads(hist: Histogram, S: np.ndarray, bounds: np.ndarray, per_group: np.ndarray) -> float:
+def group_reads(traffic: Traffic, S: np.ndarray, bounds: np.ndarray, per_group: np.ndarray) -> float:
     """Sum over lookups of ``per_group`` of every group each lookup reads, for any row cut.
 
     ``S`` is the prefix of rows per key (n + 1), ``bounds`` the groups' first rows and the file's
     row count (groups + 1). A hit reads every group holding a row of its key (an even cut can
-    split a key's rows); a miss between keys g-1 and g reads the group holding both, if one does.
+    split a key's rows); a miss between keys g-1 and g reads the group holding both, if one does;
+    a scan reads every group from the one holding its first key's first row to the one holding
+    its last key's last row (a scan with no key inside, like a miss).
     """
+    hist = traffic.points
     n = hist.n
     if n == 0:
         return 0.0
@@ -138,28 +165,37 @@ def group_reads(hist: Histogram, S: np.ndarray, bounds: np.ndarray, per_group: n
     last = np.searchsorted(bounds, S[1:] - 1, side="right") - 1
     acc = np.zeros(per_group.shape[0] + 1)
     np.cumsum(per_group, out=acc[1:])
-    hits = float(hist.p @ (acc[last + 1] - acc[first]))
     same = last[:-1] == first[1:]
     inner = np.where(same, per_group[np.minimum(first[1:], per_group.shape[0] - 1)], 0.0)
-    return hits + float(hist.q[1:n] @ inner)
+    total = float(hist.p @ (acc[last + 1] - acc[first])) + float(hist.q[1:n] @ inner)
+    if traffic.weight.shape[0]:
+        f = np.clip(traffic.first, 0, n)
+        la = np.clip(traffic.last, -1, n - 1)
+        some = f <= la
+        fi, li = np.minimum(f, n - 1), np.maximum(la, 0)
+        ranged = np.where(some, acc[last[li] + 1] - acc[first[fi]], 0.0)
+        gap_inner = np.zeros(n + 1)
+        gap_inner[1:n] = inner
+        total += float(traffic.weight @ np.where(some, ranged, gap_inner[f]))
+    return total
 
 
-def figures(hist: Histogram, table: Table, bounds: np.ndarray, model: ByteModel) -> dict:
-    """Expected bytes, rows and row groups per lookup of one cut (NULL lookups excluded: no row
-    group answers them), the footer, and the file's estimated size."""
-    S = np.zeros(hist.n + 1)
+def figures(traffic: Traffic, table: Table, bounds: np.ndarray, model: ByteModel) -> dict:
+    """Expected bytes, rows and row groups per lookup or scan of one cut (NULL lookups excluded:
+    no row group answers them), the footer, and the file's estimated size."""
+    S = np.zeros(traffic.points.n + 1)
     np.cumsum(table.rows_per_key, out=S[1:])
     rows = np.diff(bounds).astype(np.float64)
-    W = hist.total
+    W = traffic.total
     G = rows.shape[0]
     footer = model.footer_bytes(G)
     if W <= 0:
         per = {"bytes": footer, "rows": 0.0, "groups": 0.0}
     else:
         per = {
-            "bytes": footer + group_reads(hist, S, bounds, model.group_bytes(rows)) / W,
-            "rows": group_reads(hist, S, bounds, rows) / W,
-            "groups": group_reads(hist, S, bounds, np.ones(G)) / W,
+            "bytes": footer + group_reads(traffic, S, bounds, model.group_bytes(rows)) / W,
+            "rows": group_reads(traffic, S, bounds, rows) / W,
+            "groups": group_reads(traffic, S, bounds, np.ones(G)) / W,
         }
     return {
         "row_groups": int(G),
@@ -227,11 +263,18 @@ def plan_parquet(wl: Workload, opts: RowGroupOptions, on_step=None) -> dict:
     hist = wl.hist
     if hist.total <= 0:
         raise InputInvalid("the log holds no lookups of non-NULL values; nothing to plan for")
+    traffic = Traffic(hist)
+    if opts.scan_to:
+        from ..logreads import load_scans
+
+        step("reading the range scans")
+        first, last, weight, points = load_scans(wl, opts.scan_to)
+        traffic = Traffic(points, first, last, weight)
     step("reading rows per key and sampling the table for the byte model")
     table = read_table(wl)
     columns = chosen_columns(table, wl.key, opts.columns)
     model = fit_model(sample_tables(wl, table), columns, opts.footer_cached)
-    inst = instance(hist.p, hist.q, table.rows_per_key, table.null_rows, model.a, model.b, opts.min_group_rows)
+    inst = traffic.instance(table.rows_per_key, table.null_rows, model.a, model.b, opts.min_group_rows)
     total_rows = table.rows
     even = even_bounds(total_rows, opts.row_group_rows)
     model = replace(model, file_bytes_hint=model.file_bytes(np.diff(even)))
@@ -248,7 +291,7 @@ def plan_parquet(wl: Workload, opts: RowGroupOptions, on_step=None) -> dict:
                 specs.append((g, r))
     specs.sort()
     layered = max([g for g, _ in specs if g <= LAYERED_MAX and layers_fit(inst, g)], default=0)
-    solver = Solver(inst, model, hist.total)
+    solver = Solver(inst, model, traffic.total)
     step(f"optimising row groups ({len(specs)} budgets)")
     points = []
     chosen = None
@@ -259,29 +302,31 @@ def plan_parquet(wl: Workload, opts: RowGroupOptions, on_step=None) -> dict:
             starts, value = best_so_far
             proven = False
         best_so_far = (starts, value)
-        fig = figures(hist, table, cut_bounds(inst, starts), model)
+        fig = figures(traffic, table, cut_bounds(inst, starts), model)
         point = {
             "max_row_groups": g,
             "max_row_groups_rule": r,
             **fig,
-            "lower_bound": bound / hist.total,
+            "lower_bound": bound / traffic.total,
             "proven_optimal": proven,
         }
         point["_starts"] = starts
         points.append(point)
         if r == rule:
             chosen = point
-    even_fig = figures(hist, table, even, model)
+    even_fig = figures(traffic, table, even, model)
     plan = _plan_dict(chosen, even_fig, G, rule, opts)
     out = {
         "structure": "parquet",
         **_summary(hist, table),
+        "scans": _whole(traffic.scans),
+        "point_lookups": _whole(traffic.points.total + traffic.points.null_lookups),
         "byte_model": model.as_dict(),
         "plans": [plan],
         "frontier": [_public(p, even_fig) for p in points] if opts.frontier else [],
         "advised_first_keys": _first_keys(wl, chosen["_starts"]),
         "_advised_starts": chosen["_starts"],
-        "_advised_groups": _group_table(inst, chosen["_starts"], hist.total),
+        "_advised_groups": _group_table(inst, chosen["_starts"], traffic.total),
         "_writer": model.writer,
     }
     if opts.order_column and opts.holdout > 0:
@@ -322,6 +367,10 @@ def _plan_dict(chosen: dict, even: dict, G: int, rule: str, opts: RowGroupOption
     }
 
 
+def _whole(x: float):
+    return int(round(x)) if abs(x - round(x)) < 1e-9 else x
+
+
 def _summary(hist: Histogram, table: Table) -> dict:
     s = hist.summary()
     whole = lambda x: int(round(x)) if abs(x - round(x)) < 1e-9 else x  # noqa: E731
@@ -356,10 +405,10 @@ def _holdout(wl: Workload, opts: RowGroupOptions, table: Table, model: ByteModel
     inst = instance(train.p, train.q, table.rows_per_key, table.null_rows, model.a, model.b, opts.min_group_rows)
     g = min(G, LAYERED_MAX) if layers_fit(inst, min(G, LAYERED_MAX)) else 0
     starts, *_ = Solver(inst, model, train.total).best(G, g)
-    fit = figures(train, table, cut_bounds(inst, starts), model)["expected_bytes"]
-    fit_even = figures(train, table, even, model)["expected_bytes"]
-    later = figures(test, table, cut_bounds(inst, starts), model)["expected_bytes"]
-    later_even = figures(test, table, even, model)["expected_bytes"]
+    fit = figures(Traffic(train), table, cut_bounds(inst, starts), model)["expected_bytes"]
+    fit_even = figures(Traffic(train), table, even, model)["expected_bytes"]
+    later = figures(Traffic(test), table, cut_bounds(inst, starts), model)["expected_bytes"]
+    later_even = figures(Traffic(test), table, even, model)["expected_bytes"]
     return {
         "held_out_share": opts.holdout,
         "fit": {"uniform": fit_even, "optimized": fit, "saving": 1 - fit / fit_even},

@@ -265,3 +265,26 @@ def test_export_lists_the_advised_groups(clustered, tmp_path):
     assert run["hits"] / run["lookups"] - 1e-9 <= sum(r[3] for r in rows) <= 1 + 1e-9
     code, out, err = _cli("recommend", clustered, *COMMON, "--model", "parquet", "--export", out_csv)
     assert code == 7 and len(err.strip().splitlines()) == 1
+
+
+def test_range_scans_are_planned(clustered, tmp_path):
+    """Log rows with an end value are scans: counted apart from point lookups, and the advised cut
+    reads no more than the even file with them."""
+    db = str(tmp_path / "scans.duckdb")
+    con = duckdb.connect(db)
+    con.execute(f"ATTACH '{clustered}' AS src (READ_ONLY)")
+    con.execute("CREATE TABLE orders AS SELECT * FROM src.orders")
+    con.execute(
+        "CREATE TABLE lookups AS SELECT order_id, CASE WHEN seq % 5 = 0 THEN order_id + 30 END AS upto FROM src.lookups"
+    )
+    scans = con.execute("SELECT count(*) FROM lookups WHERE upto IS NOT NULL AND order_id IS NOT NULL").fetchall()[0][0]
+    con.close()
+    code, out, err = _cli(
+        "recommend", db, *COMMON, *SMALL, "--model", "parquet", "--scan-to", "upto", "--json", "--no-frontier"
+    )
+    assert code == 0, err
+    run = json.loads(out)
+    assert run["scans"] == scans and run["point_lookups"] == 20_000 - scans
+    plan = run["plans"][0]
+    assert plan["optimized"]["expected_bytes"] <= plan["uniform"]["expected_bytes"]
+    assert plan["proven_optimal"]

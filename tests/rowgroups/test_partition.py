@@ -115,3 +115,56 @@ def test_within_budget_matches_layers(seed):
         assert cut.groups <= G
         assert cut.cost >= opt * (1 - 1e-9)
         assert bound <= opt * (1 + 1e-9)
+
+
+@pytest.mark.parametrize("seed", range(20))
+def test_scans_equal_brute_force(seed):
+    """Range scans read every group their [lo, hi] overlaps: the exact optimum with scans matches
+    brute force whose cost counts, per scan, each overlapping group directly."""
+    rng = np.random.default_rng(500 + seed)
+    n = int(rng.integers(2, 10))
+    p, q, rows = _random(rng, n)
+    k = int(rng.integers(1, 6))
+    first = rng.integers(0, n + 1, k)
+    last = np.array([int(rng.integers(f - 1, n)) for f in first])  # first - 1 means no key inside
+    w = rng.uniform(0.5, 5, k)
+    inst = instance(p, q, rows, 0.0, 3.0, 1.0, 0.0, (first, last, w))
+    S = inst.S
+
+    def direct(starts):
+        ends = np.append(starts[1:], n)
+        total = 0.0
+        for i, j in zip(starts, ends, strict=True):
+            c = 3.0 + (S[j] - S[i])
+            total += c * (p[i:j].sum() + q[i + 1 : j].sum())
+            total += c * sum(wt for f, la, wt in zip(first, last, w, strict=True) if i <= la and j - 1 >= f)
+        return total
+
+    got = best_by_count(inst, n)
+    for g in range(1, n + 1):
+        costs = [direct(s) for s in _all_partitions(n) if len(s) == g]
+        assert got[g].cost == pytest.approx(min(costs), rel=1e-9)
+
+
+@pytest.mark.parametrize("seed", range(20))
+def test_row_level_evaluator_agrees_with_the_optimiser_cost(seed):
+    """plan.group_reads (any row cut, written for files) and Instance.cost (key-aligned cuts, what
+    the optimiser minimises) give the same bytes on key-aligned cuts, scans included."""
+    from advisor.histogram import Histogram
+    from advisor.rowgroups.plan import Traffic, group_reads
+
+    rng = np.random.default_rng(700 + seed)
+    n = int(rng.integers(2, 40))
+    p, q, rows = _random(rng, n)
+    k = int(rng.integers(0, 6))
+    first = rng.integers(0, n + 1, k)
+    last = np.array([int(rng.integers(f - 1, n)) for f in first], dtype=np.int64)
+    w = rng.uniform(0.5, 5, k)
+    tail = float(rng.integers(0, 3))
+    inst = instance(p, q, rows, tail, 7.0, 2.0, 0.0, (first, last, w) if k else None)
+    cuts = np.sort(rng.choice(np.arange(1, n), size=int(rng.integers(0, n - 1)), replace=False))
+    starts = np.concatenate([[0], cuts]).astype(np.int64)
+    bounds = np.append(inst.S[starts], inst.S[-1] + tail)
+    per_group = 7.0 + 2.0 * np.diff(bounds)
+    traffic = Traffic(Histogram(p, q), first.astype(np.int64), last, w)
+    assert group_reads(traffic, inst.S, bounds, per_group) == pytest.approx(inst.cost(starts), rel=1e-9, abs=1e-9)
