@@ -66,7 +66,7 @@ from .cli_options import (
     TruncateOpt,
 )
 from .cli_rowgroups import parse_columns, recommend_parquet
-from .cli_support import check_model, guard, parse_storage, read_query, warn
+from .cli_support import check_model, guard, need_log, parse_storage, read_query, warn
 from .demo import DEMO_KEY, DEMO_LOG, DEMO_TABLE, build_demo
 from .errors import OutputRefused, SettingInvalid
 from .export import check_destination, check_target, write_layout
@@ -81,6 +81,26 @@ app = typer.Typer(
     no_args_is_help=True,
     help="Page-layout advice for read-mostly indexes under skewed lookups.",
 )
+
+
+def _version(value: bool) -> None:
+    if value:
+        from importlib.metadata import PackageNotFoundError, version
+
+        try:
+            print(f"advisor {version('advisor')}")
+        except PackageNotFoundError:  # pragma: no cover - running from a source tree
+            print("advisor (not installed)")
+        raise typer.Exit(0)
+
+
+@app.callback()
+def _main(
+    show_version: Annotated[
+        bool, typer.Option("--version", help="Print the version and exit.", callback=_version, is_eager=True)
+    ] = False,
+) -> None:
+    """Page-layout advice for read-mostly indexes under skewed lookups."""
 
 
 def _run(
@@ -137,6 +157,7 @@ def _run(
             }
     if svg or html:
         run["pictures"] = save_pictures(run, render_run(run), svg, html)
+    warn(run.get("warnings", []))
     if as_json:
         print(json.dumps(run, indent=2, default=str))
     else:
@@ -195,6 +216,7 @@ def recommend_cmd(
 ) -> None:
     """Recommend a page layout for an index on TABLE.KEY and compare it with the even split."""
     with guard():
+        need_log(log, log_sql)
         check_model(model, keys_per_page, fanout)
         if model == "parquet":
             if svg or current or html is not None:

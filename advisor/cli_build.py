@@ -46,7 +46,7 @@ from .cli_options import (
     option,
 )
 from .cli_rowgroups import build_parquet_cmd, parse_columns, probe_parquet_cmd
-from .cli_support import check_model, guard, read_query
+from .cli_support import check_model, guard, need_log, read_query
 from .errors import LayoutInvalid, OutputRefused, SettingInvalid
 from .report import render_probe
 from .rowgroups.plan import EVEN_ROWS, MIN_ROWS, RowGroupOptions
@@ -122,6 +122,7 @@ def build_cmd(
         from .advise import plan_one
         from .build import build_index
 
+        need_log(log, log_sql)
         if model == "parquet":
             opts = RowGroupOptions(
                 parse_columns(columns), footer_cached, row_group_rows, max_row_groups, min_group_rows, False

@@ -7,7 +7,7 @@ from pathlib import Path
 
 from rich.console import Console
 
-from .cli_support import read_query
+from .cli_support import read_query, warn
 from .errors import OutputRefused, SettingInvalid
 from .progress import steps
 from .workload import load_workload
@@ -46,6 +46,7 @@ def recommend_parquet(
                 progress.step("writing the export")
                 full["exports"] = [write_groups_table(wl, *full["_advised_groups"], export, force)]
             run = _public(full)
+    warn(run.get("warnings", []))
     if as_json:
         print(json.dumps(run, indent=2, default=str))
     else:

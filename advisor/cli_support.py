@@ -10,7 +10,7 @@ import typer
 from rich.console import Console
 
 from . import interrupt
-from .errors import AdvisorError, InputInvalid, InputNotFound, SettingInvalid
+from .errors import AdvisorError, InputInvalid, InputNotFound, SettingInvalid, UsageError
 from .pagesize import PROFILES, StorageProfile
 
 
@@ -82,6 +82,12 @@ def parse_storage(text: str) -> StorageProfile:
 
 def check_model(model: str, keys_per_page, fanout) -> None:
     if model not in ("btree", "bplus", "both", "parquet"):
-        raise SettingInvalid(f"--model must be btree, bplus, both or parquet, got {model!r}")
+        raise UsageError(f"--model must be btree, bplus, both or parquet, got {model!r}")
     if model in ("bplus", "both") and keys_per_page and not fanout:
         raise SettingInvalid("--model bplus with --keys-per-page needs --fanout")
+
+
+def need_log(log, log_sql) -> None:
+    """A run without a lookup log has nothing to fit: a usage error, not an empty report."""
+    if log is None and log_sql is None:
+        raise UsageError("give the lookup log: --log TABLE|FILE, or --log-sql FILE")

@@ -13,6 +13,12 @@ class AdvisorError(Exception):
     exit_code = 1
 
 
+class UsageError(AdvisorError):
+    """The command line asks for something no run can do (a missing input, an unknown choice)."""
+
+    exit_code = 2
+
+
 class InputNotFound(AdvisorError):
     """A database, log file, table or column the user named does not exist."""
 

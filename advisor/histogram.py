@@ -12,6 +12,8 @@ from functools import cached_property
 
 import numpy as np
 
+FEW_LOOKUPS = 1000
+
 
 @dataclass(frozen=True)
 class Histogram:
@@ -105,6 +107,21 @@ class Histogram:
         return Histogram(
             (1 - alpha) * self.p + alpha * mean, (1 - alpha) * self.q + alpha * mean, self.null_lookups, self.source
         )
+
+    def warnings(self) -> list[str]:
+        """Plain sentences for a log too thin or too odd to trust the advice on (thresholds are
+        round figures of this project's choosing, not measured)."""
+        s = self.summary()
+        out = []
+        if s["lookups"] < FEW_LOOKUPS:
+            out.append(f"only {s['lookups']:,.0f} lookups in the log: too few to tell hot keys from luck")
+        if s["lookups"] > 0 and s["hits"] <= 0:
+            out.append("no lookup in the log found a key: check --log-column and the key's type")
+        elif s["miss_share"] > 0.9:
+            out.append(f"{s['miss_share']:.0%} of the lookups miss: the layout is fitted mostly to absent values")
+        if self.n and s["keys_never_hit"] / self.n > 0.99 and s["hits"] > 0:
+            out.append(f"{s['keys_never_hit'] / self.n:.1%} of the keys were never looked up")
+        return out
 
     def summary(self) -> dict:
         """Figures for the report and JSON: sizes, shares and entropy."""

@@ -77,5 +77,6 @@ def run_dict(
         "histogram": {k: v for k, v in s.items() if k not in ("keys", "lookups", "hits", "misses", "null_lookups")},
         "plans": [plan_dict(p) | ({"buffer_pool": pools[i]} if pools else {}) for i, p in enumerate(plans)],
         "exports": exports or [],
+        "warnings": hist.warnings(),
         "advice": "Advice only: test any layout on a copy before production use.",
     }

@@ -11,6 +11,7 @@ exports can turn ranks back into key values of the key's own type.
 from __future__ import annotations
 
 import atexit
+import math
 import os
 import shutil
 import tempfile
@@ -173,11 +174,26 @@ def query_log(con, text: str) -> QueryLog:
     return QueryLog(rel)
 
 
+def _table_named(con, name: str) -> str | None:
+    """SQL for the table (or view) called ``name`` exactly as typed, or None."""
+    if os.sep in name or name.lower().endswith(LOG_FILE_SUFFIXES) or any(ch in name for ch in "*?["):
+        return None
+    try:
+        return table_sql(con, name)
+    except InputNotFound:
+        return None
+
+
 def log_source(con, log: str) -> tuple[str, str]:
     """SQL relation for the log and a human name: a query, a file (or a directory or glob of
     Parquet files, hive partitions read as columns) DuckDB reads, or a table."""
     if isinstance(log, QueryLog):
         return str(log), "query (--log-sql)"
+    named = _table_named(con, log)
+    if named is not None:
+        if os.path.exists(log):  # a table and a path of one name: the database's table wins, said so
+            return named, f"table {log} (the database's table, not the path {log})"
+        return named, f"table {log}"
     if any(ch in log for ch in "*?[") and log.lower().endswith(".parquet"):
         rel = f"read_parquet({sql_string(log)}, hive_partitioning = true)"
         try:
@@ -372,4 +388,7 @@ def _checked_count(con, lsql: str, col: str, ctype: str, lname: str) -> str:
         inf = con.execute(f"SELECT count(*) FILTER (WHERE isinf({c})) FROM {lsql}").fetchall()[0][0]
         if inf:
             raise InputInvalid(f"count column {col!r} in {lname} has {inf} infinite value(s)")
+    total = con.execute(f"SELECT sum({c}::DOUBLE) FROM {lsql}").fetchall()[0][0]
+    if total is not None and not math.isfinite(total):
+        raise InputInvalid(f"count column {col!r} in {lname} sums to more than a double holds")
     return f"{c}::DOUBLE"

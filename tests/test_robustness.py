@@ -277,3 +277,30 @@ def test_large_log_is_aggregated_in_duckdb(tmp_path):
 def test_memory_limit_option(basic):
     assert plan(basic, "--json", "--memory-limit", "500MB").exit_code == 0
     one_line_error(plan(basic, "--memory-limit", "lots"), 5, "memory limit")
+
+
+def test_a_table_named_like_a_folder_is_read_as_the_table(tmp_path, monkeypatch):
+    """`--log flights` beside a folder flights/ reads the database's table, and says which."""
+    db = make(
+        tmp_path / "f.duckdb",
+        [
+            "CREATE TABLE t AS SELECT range::INTEGER AS k FROM range(0, 1000, 3)",
+            "CREATE TABLE flights AS SELECT (range % 1100)::INTEGER AS k FROM range(5000)",
+        ],
+    )
+    (tmp_path / "flights").mkdir()
+    monkeypatch.chdir(tmp_path)
+    run = _json(plan(db, "--json", log="flights"))
+    assert run["lookups"] == 5000
+    assert "not the path" in json.dumps(run["inputs"])
+
+
+def test_counts_that_overflow_a_double_are_bad_input(tmp_path):
+    db = make(
+        tmp_path / "o.duckdb",
+        [
+            "CREATE TABLE t AS SELECT range::INTEGER AS k FROM range(0, 1000, 3)",
+            "CREATE TABLE big AS SELECT * FROM (VALUES (3, 1.5e308::DOUBLE), (6, 1.5e308::DOUBLE)) v(k, n)",
+        ],
+    )
+    one_line_error(plan(db, "--count-column", "n", log="big"), 4, "sums to more")

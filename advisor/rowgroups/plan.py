@@ -333,6 +333,7 @@ def plan_parquet(wl: Workload, opts: RowGroupOptions, on_step=None) -> dict:
         step("held-out check: fitting on the earlier part of the log")
         out["holdout"] = _holdout(wl, opts, table, model, even, G)
     out["advice"] = advice_sentences(out)
+    out["warnings"] = hist.warnings()
     return out
 
 

@@ -1,0 +1,80 @@
+"""The command line's manners: --version, a run without a log, an unknown structure, and the
+warnings a thin or odd log earns (terminal line on stderr and the JSON `warnings` list)."""
+
+from __future__ import annotations
+
+import json
+
+import duckdb
+import numpy as np
+import pytest
+from typer.testing import CliRunner
+
+from advisor.cli import app
+from advisor.histogram import Histogram
+
+runner = CliRunner()
+
+
+@pytest.fixture(scope="module")
+def db(tmp_path_factory):
+    path = tmp_path_factory.mktemp("manners") / "m.duckdb"
+    con = duckdb.connect(str(path))
+    con.execute("CREATE TABLE items AS SELECT i * 2 AS item_no FROM range(3000) t(i)")
+    con.execute("CREATE TABLE misses AS SELECT i * 2 + 1 AS item_no FROM range(9) t(i)")
+    con.execute("CREATE TABLE plenty AS SELECT (i * 7 % 3000) * 2 AS item_no FROM range(20000) t(i)")
+    con.close()
+    return str(path)
+
+
+def _cli(*args):
+    r = runner.invoke(app, [str(a) for a in args])
+    return r.exit_code, r.stdout, r.stderr
+
+
+def test_version():
+    code, out, _ = _cli("--version")
+    assert code == 0 and out.startswith("advisor ")
+
+
+@pytest.mark.parametrize("command", ["recommend", "build"])
+def test_a_run_without_a_log_is_a_usage_error(db, tmp_path, command):
+    extra = ("--out", tmp_path / "x.idx") if command == "build" else ()
+    code, out, err = _cli(command, db, "--table", "items", "--key", "item_no", *extra)
+    assert code == 2 and out == ""
+    assert len(err.strip().splitlines()) == 1 and "--log" in err
+
+
+def test_unknown_structure_is_a_usage_error(db):
+    code, _, err = _cli("recommend", db, "--table", "items", "--key", "item_no", "--log", "plenty", "--model", "bplusx")
+    assert code == 2 and len(err.strip().splitlines()) == 1
+
+
+def test_all_miss_log_is_warned(db):
+    code, out, err = _cli(
+        "recommend", db, "--table", "items", "--key", "item_no", "--log", "misses", "--keys-per-page", "8", "--json"
+    )
+    assert code == 0
+    warnings = json.loads(out)["warnings"]
+    assert any("too few" in w for w in warnings)
+    assert any("no lookup" in w for w in warnings)
+    assert "warning: only 9 lookups" in err
+
+
+def test_a_healthy_log_has_no_warnings(db):
+    code, out, _ = _cli(
+        "recommend", db, "--table", "items", "--key", "item_no", "--log", "plenty", "--keys-per-page", "8", "--json"
+    )
+    assert code == 0 and json.loads(out)["warnings"] == []
+
+
+def test_warning_thresholds():
+    """Each rule on its own (hand-made histograms)."""
+    n = 200
+    p = np.zeros(n)
+    p[0] = 5000
+    q = np.zeros(n + 1)
+    assert Histogram(p, q).warnings() == ["99.5% of the keys were never looked up"]
+    q[5] = 50_000
+    assert any("miss" in w for w in Histogram(p, q).warnings())
+    assert Histogram(np.full(n, 10.0), np.zeros(n + 1)).warnings() == []
