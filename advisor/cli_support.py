@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import sys
 from contextlib import contextmanager
 from pathlib import Path
 
@@ -91,3 +92,40 @@ def need_log(log, log_sql) -> None:
     """A run without a lookup log has nothing to fit: a usage error, not an empty report."""
     if log is None and log_sql is None:
         raise UsageError("give the lookup log: --log TABLE|FILE, or --log-sql FILE")
+
+
+# the command-line library's validation wording, said plainly
+_PLAIN = (
+    ("Input should be a valid integer, unable to parse string as an integer", "not a whole number"),
+    ("Input should be a valid integer", "not a whole number"),
+    ("Input should be a valid number, unable to parse string as a number", "not a number"),
+    ("Input should be a valid number", "not a number"),
+    ("Input should be a valid boolean", "not true or false"),
+)
+
+
+def usage_line(message: str, command: str | None) -> str:
+    """One line for a usage error: the problem in plain words and where help is."""
+    text = " ".join(message.split())
+    for theirs, ours in _PLAIN:
+        text = text.replace(theirs, ours)
+    where = f"advisor {command} --help" if command else "advisor --help"
+    return f"advisor: error: {text.rstrip('.')} (see {where})"
+
+
+def run_app(app, args: list[str] | None = None) -> int:
+    """Run the Typer app with usage errors as one line on stderr and exit code 2 (the library's
+    own framed boxes take five lines); everything else as the commands answer it."""
+    try:
+        rv = app(args=args, standalone_mode=False)
+    except Exception as e:  # the vendored click's UsageError family, by shape
+        if not (hasattr(e, "format_message") and hasattr(e, "exit_code")):
+            raise
+        ctx = getattr(e, "ctx", None)
+        if type(e).__name__ == "NoArgsIsHelpError" and ctx is not None:
+            print(ctx.get_help())
+            return 0
+        command = ctx.info_name if ctx is not None and ctx.parent is not None else None
+        sys.stderr.write(usage_line(e.format_message(), command) + "\n")
+        return int(e.exit_code) if e.exit_code else 2
+    return rv if isinstance(rv, int) else 0

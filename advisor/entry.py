@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import sys
+
 
 def main() -> None:  # pragma: no cover - exercised through subprocess tests
     from . import interrupt
@@ -9,5 +11,6 @@ def main() -> None:  # pragma: no cover - exercised through subprocess tests
     interrupt.install()
     interrupt.checkpoint("start")
     from .cli import app
+    from .cli_support import run_app
 
-    app()
+    sys.exit(run_app(app))

@@ -78,3 +78,29 @@ def test_warning_thresholds():
     q[5] = 50_000
     assert any("miss" in w for w in Histogram(p, q).warnings())
     assert Histogram(np.full(n, 10.0), np.zeros(n + 1)).warnings() == []
+
+
+@pytest.mark.parametrize(
+    "argv, words",
+    [
+        (
+            ["recommend", "x.duckdb", "--table", "t", "--key", "k", "--page-size", "abc"],
+            ["--page-size", "whole number"],
+        ),
+        (["recommend"], ["Missing argument"]),
+        (["recommend", "x.duckdb", "--table", "t", "--key", "k", "--bogus", "1"], ["--bogus"]),
+        (["nonsense"], ["No such command"]),
+    ],
+)
+def test_usage_errors_are_one_line_with_exit_2(argv, words):
+    """Through the console entry point (the test runner's app call keeps the library's boxes)."""
+    import subprocess
+    import sys
+
+    res = subprocess.run([sys.executable, "-m", "advisor", *argv], capture_output=True, text=True, timeout=60)
+    assert res.returncode == 2 and res.stdout == ""
+    lines = res.stderr.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("advisor: error: ")
+    assert "Input should be" not in lines[0]
+    for w in words:
+        assert w in lines[0]
