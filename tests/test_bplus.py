@@ -138,7 +138,7 @@ def test_bplus_through_the_cli(tmp_path):
     bad = runner.invoke(app, base + ["--keys-per-page", "8"])
     assert bad.exit_code == 5 and "--fanout" in bad.stderr
     bad = runner.invoke(app, ["recommend", str(db), "--table", "t", "--key", "k", "--model", "btree+"])
-    assert bad.exit_code == 5
+    assert bad.exit_code == 2  # an unknown choice is a usage error
     scans = runner.invoke(app, base + ["--json", "--keys-per-page", "8", "--fanout", "5", "--order-column", "k"])
     assert scans.exit_code == 0, scans.stderr
 
@@ -220,7 +220,9 @@ def test_suffix_truncation_raises_fanout_for_string_keys(tmp_path):
     assert g["separator_bytes"] < g["key_bytes"]  # prefixes up to the differing digit, plus 2
     assert short["fanout"] > plain["fanout"] == g["untruncated_fanout"]
     assert short["optimized"]["expected_page_reads"] <= plain["optimized"]["expected_page_reads"] + 1e-12
-    bad = CliRunner().invoke(app, ["recommend", str(db), "--table", "t", "--key", "k", "--truncate-separators"])
+    bad = CliRunner().invoke(
+        app, ["recommend", str(db), "--table", "t", "--key", "k", "--log", "lg", "--truncate-separators"]
+    )
     assert bad.exit_code == 5
 
 

@@ -36,8 +36,7 @@ def _height(layout):
     return int(layout.depths().max())
 
 
-@settings(max_examples=40, deadline=None)
-@given(
+_CASES = dict(
     seed=st.integers(0, 10_000),
     n=st.integers(1, 1500),
     c=st.integers(1, 40),
@@ -45,7 +44,22 @@ def _height(layout):
     model=st.sampled_from(["btree", "bplus"]),
     exact=st.sampled_from([0.0, 1.0]),  # both paths; a 1 s allowance keeps the exact one short
 )
+
+
+@settings(max_examples=15, deadline=None)
+@given(**_CASES)
 def test_default_run_never_exceeds_the_even_split(seed, n, c, skew, model, exact):
+    _never_exceeds(seed, n, c, skew, model, exact)
+
+
+@pytest.mark.slow
+@settings(max_examples=150, deadline=None)
+@given(**_CASES)
+def test_default_run_never_exceeds_the_even_split_many(seed, n, c, skew, model, exact):
+    _never_exceeds(seed, n, c, skew, model, exact)
+
+
+def _never_exceeds(seed, n, c, skew, model, exact):
     rng = np.random.default_rng(seed)
     hist = _hist(rng, n, skew)
     F = int(rng.integers(2, 12))

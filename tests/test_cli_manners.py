@@ -23,6 +23,8 @@ def db(tmp_path_factory):
     con.execute("CREATE TABLE items AS SELECT i * 2 AS item_no FROM range(3000) t(i)")
     con.execute("CREATE TABLE misses AS SELECT i * 2 + 1 AS item_no FROM range(9) t(i)")
     con.execute("CREATE TABLE plenty AS SELECT (i * 7 % 3000) * 2 AS item_no FROM range(20000) t(i)")
+    con.execute("CREATE TABLE few AS SELECT i * 2 AS item_no FROM range(400) t(i)")  # every key looked up
+    con.execute("CREATE TABLE steady AS SELECT (i * 7 % 400) * 2 AS item_no FROM range(4000) t(i)")
     con.close()
     return str(path)
 
@@ -52,7 +54,7 @@ def test_unknown_structure_is_a_usage_error(db):
 
 def test_all_miss_log_is_warned(db):
     code, out, err = _cli(
-        "recommend", db, "--table", "items", "--key", "item_no", "--log", "misses", "--keys-per-page", "8", "--json"
+        "recommend", db, "--table", "few", "--key", "item_no", "--log", "misses", "--keys-per-page", "8", "--json"
     )
     assert code == 0
     warnings = json.loads(out)["warnings"]
@@ -63,7 +65,18 @@ def test_all_miss_log_is_warned(db):
 
 def test_a_healthy_log_has_no_warnings(db):
     code, out, _ = _cli(
-        "recommend", db, "--table", "items", "--key", "item_no", "--log", "plenty", "--keys-per-page", "8", "--json"
+        "recommend",
+        db,
+        "--table",
+        "few",
+        "--key",
+        "item_no",
+        "--log",
+        "steady",
+        "--keys-per-page",
+        "8",
+        "--no-frontier",
+        "--json",
     )
     assert code == 0 and json.loads(out)["warnings"] == []
 

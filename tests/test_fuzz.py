@@ -72,11 +72,23 @@ def _python(v):
     return v
 
 
-@settings(
-    max_examples=30, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow]
-)
+_HEALTH = [HealthCheck.function_scoped_fixture, HealthCheck.too_slow]
+
+
+@settings(max_examples=6, deadline=None, suppress_health_check=_HEALTH)
 @given(case=cases())
 def test_random_inputs_through_the_cli(tmp_path_factory, case):
+    _through_the_cli(tmp_path_factory, case)
+
+
+@pytest.mark.slow
+@settings(max_examples=40, deadline=None, suppress_health_check=_HEALTH)
+@given(case=cases())
+def test_random_inputs_through_the_cli_many(tmp_path_factory, case):
+    _through_the_cli(tmp_path_factory, case)
+
+
+def _through_the_cli(tmp_path_factory, case):
     key_type, keys, log_type, log, counts, distinct, c = case
     d = tmp_path_factory.mktemp("fuzz")
     db = d / "f.duckdb"

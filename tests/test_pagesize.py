@@ -18,7 +18,7 @@ from advisor.planner import plan_capacity
 
 def test_time_formula_and_choice():
     rng = np.random.default_rng(0)
-    hist = Histogram(rng.integers(0, 50, 5000).astype(float), np.zeros(5001))
+    hist = Histogram(rng.integers(0, 50, 1500).astype(float), np.zeros(1501))
     plans = [plan_capacity(hist, g.capacity, g) for g in (geometry_for(s, 8) for s in (512, 4096))]
     prof = StorageProfile("t", 100.0, 100.0)  # 100 µs + 10 µs per 1000 bytes
     table = page_size_table(plans, hist, prof, pool_bytes=0)

@@ -214,7 +214,7 @@ def test_locked_database(basic):
         holder.wait()
 
 
-@pytest.mark.parametrize("phase", ["start", "read", "plan", "export"])
+@pytest.mark.parametrize("phase", ["start", "read", "plan", pytest.param("export", marks=pytest.mark.slow)])
 def test_ctrl_c_leaves_no_partial_file(tmp_path, phase):
     """SIGINT sent once the run says it reached a phase (ADVISOR_PAUSE_AT, a test hook that
     waits there): exit 130, the one-line message, no output and no temporary file."""
