@@ -102,6 +102,7 @@ def test_evaluator_agrees_with_replay_and_properties(seed):
         assert e <= evaluate(uni, hist).expected_page_reads + 1e-12
 
 
+@pytest.mark.slow  # several full runs: in the slow suite
 def test_bplus_through_the_cli(tmp_path):
     import json
 
@@ -182,6 +183,7 @@ def test_balanced_shape_properties(clustered):
         assert pinned_misses(layout, hist, sizes)[-1] < pinned_misses(uni, hist, sizes)[-1]
 
 
+@pytest.mark.slow  # several full runs: in the slow suite
 def test_suffix_truncation_raises_fanout_for_string_keys(tmp_path):
     import json
 

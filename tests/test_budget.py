@@ -124,6 +124,7 @@ def test_impossible_budgets_are_refused():
     assert resolve(BudgetSpec("none", "none"), bplus, bplus.pages, 4) == Budget(None, None)
 
 
+@pytest.mark.slow  # several full runs: in the slow suite
 def test_frontier_never_rises_with_more_budget():
     rng = np.random.default_rng(5)
     hist = _hist(rng, 4000, 1.1)
@@ -159,6 +160,7 @@ def _plan(db, *extra):
     )
 
 
+@pytest.mark.slow  # several full runs: in the slow suite
 def test_cli_budget_fields_and_frontier(db):
     res = _plan(db, "--json", "--exact-seconds", "1")  # the fields, not the exact path (tested elsewhere)
     assert res.exit_code == 0, res.stderr
@@ -208,6 +210,7 @@ def test_fill_factor_sets_the_classic_baseline_and_its_budget():
     assert part.recommended_cost.expected_page_reads <= full.recommended_cost.expected_page_reads + 1e-12
 
 
+@pytest.mark.slow  # several full runs: in the slow suite
 def test_fill_factors_of_leaves_and_internal_pages_in_both_even_splits():
     """A bulk loader fills leaves and internal pages to their own fill factors (common practice:
     leaves short of full, internal pages fuller, or the reverse); the even split keeps the page's

@@ -146,6 +146,7 @@ def test_demo_runs_small(tmp_path):
     assert strip(json.loads(again.stdout)["plans"]) == strip(run["plans"])  # same file, same figures
 
 
+@pytest.mark.slow  # several full runs: in the slow suite
 def test_buffer_pool_and_lru_replay(small_db):
     res = _plan(
         small_db,

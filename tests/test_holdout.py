@@ -48,6 +48,7 @@ def test_split_adds_up_to_the_whole_log(ordered_db):
         assert test.total == pytest.approx(2000, abs=1)
 
 
+@pytest.mark.slow  # several full runs: in the slow suite
 def test_cli_shows_in_sample_and_held_out(ordered_db):
     res = CliRunner().invoke(
         app,

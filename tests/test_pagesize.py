@@ -16,6 +16,7 @@ from advisor.pagesize import StorageProfile, page_size_table
 from advisor.planner import plan_capacity
 
 
+@pytest.mark.slow  # several full runs: in the slow suite
 def test_time_formula_and_choice():
     rng = np.random.default_rng(0)
     hist = Histogram(rng.integers(0, 50, 1500).astype(float), np.zeros(1501))

@@ -112,6 +112,7 @@ def test_empty_log_keeps_the_even_split(tmp_path):
     assert "nothing to optimise" in plan(db).stdout
 
 
+@pytest.mark.slow  # several full runs: in the slow suite
 def test_only_misses_single_key_and_equal_weights(tmp_path):
     db = make(
         tmp_path / "m.duckdb",
