@@ -223,7 +223,7 @@ def analyse(wl: Workload, req: Request, on_plan: Callable[[int, str], None] | No
         # one pool in bytes for both structures
         pool_bytes = pool_bytes or default_pool_bytes([p.plan for p in parts[0].plans])
     result = parts[0] if len(parts) == 1 else parts[0].beside(parts[1])
-    return Analysis(replace(result, current=reads.current))
+    return Analysis(replace(result, current=reads.current, pool_bytes=req.pool_bytes))
 
 
 def _analyse_structure(wl: Workload, req: Request, reads: LogReads, on_plan) -> RunResult:
@@ -273,7 +273,10 @@ def pool_equivalent(p: Plan, hist: Histogram, pool_bytes: int, pool_pages: list[
     size = p.page_size
     pool = (pool_pages[0] if pool_pages else max(1, pool_bytes // size if size else 1)) if p.uniform.pages else 0
     need = pool_to_match(p.uniform, p.recommended, hist, pool)
+    even, advised = pinned_misses(p.uniform, hist, [pool])[0], pinned_misses(p.recommended, hist, [pool])[0]
     return {
+        "even_misses": float(even),
+        "advised_misses": float(advised),
         "pool_pages": int(pool),
         "even_split_pool_pages": int(need),
         "pool_equivalent_pages": int(max(0, need - pool)),

@@ -13,7 +13,6 @@ from rich.terminal_theme import TerminalTheme
 
 from .atomic import atomic_path
 from .charts import all_charts, chart_sheet
-from .report import summary_text
 
 HEADING_PX = 80  # the heading band above the report
 
@@ -113,7 +112,7 @@ def save_pictures(run: dict, renderable, svg: Path | None, html: Path | None, wi
     if html is not None:
         console = Console(record=True, width=width, file=io.StringIO(), force_terminal=True, color_system="truecolor")
         console.print(renderable)
-        summary = "".join(f"<p>{escape(line)}</p>" for line in summary_text(run).plain.splitlines())
+        summary = "".join(f"<p>{escape(item['text'])}</p>".replace("\n", "<br>") for item in run["advice"])
         charts = "\n".join(all_charts(run))
         page = HTML_PAGE.replace("%SUMMARY%", _braces(summary)).replace("%CHARTS%", _braces(charts))
         _write(html, console.export_html(theme=PAPER, clear=False, code_format=page, inline_styles=False))

@@ -52,33 +52,29 @@ def traffic_panel(run: dict) -> Panel:
     return Panel(t, title="Traffic profile", title_align="left")
 
 
-def _bytes(n) -> str:
-    text = size_text(n)
-    return text[:-1] + " " + {"K": "KiB", "M": "MiB", "G": "GiB", "T": "TiB"}[text[-1]] if text[-1] in "KMGT" else text
+def _optimal(run: dict, p: dict) -> str:
+    """How close to the best: "proven" only when some lookup found a key (all-miss logs prove nothing useful)."""
+    if not run.get("hits"):
+        return "no hits"
+    return "proven" if p["proven_optimal"] else f"within {pct(p['certified_gap'])}"
 
 
-def summary_text(run: dict) -> Text:
-    """The recommendation per page size in one sentence: saving, space, worst case, memory worth."""
-    lines = []
-    for p in run["plans"]:
-        o, u = p["optimized"], p["uniform"]
-        where = f"{p['page_size']:,}-byte pages" if p["page_size"] else f"{p['keys_per_page']} keys per page"
-        what = "B+-tree" if p.get("model") == "bplus" else "B-tree"
-        if o["expected_page_reads"] >= u["expected_page_reads"] - 1e-12:
-            lines.append(f"{what}, {where}: keep the even split; nothing found within the budget reads fewer pages.")
+def summary_text(run: dict) -> Group:
+    """The advice per page size and structure (written by :mod:`advisor.headline`): what it saves,
+    then where it can be built and what the cache does to it, each with a hanging indent."""
+    parts = []
+    for item in run["advice"]:
+        parts.append(Text(item.get("saves", item["text"])))
+        if "saves" not in item:
             continue
-        extra = o["pages"] - u["pages"]
-        space = "as many as the even split" if extra == 0 else f"{abs(extra):,} {'more' if extra > 0 else 'fewer'}"
-        size = f", {_bytes(o['bytes'])}" if o.get("bytes") else ""
-        worth = p.get("pool_equivalent", {}).get("pool_equivalent_bytes")
-        memory = f"; the even split would need {_bytes(worth)} more buffer pool to miss as little" if worth else ""
-        lines.append(
-            f"{what}, {where}: the advised layout reads {pct(p['saving'])} fewer pages per lookup "
-            f"({u['expected_page_reads']:.3f} -> {o['expected_page_reads']:.3f}) in {o['pages']:,} pages ({space}"
-            f"{size}) and {o['height']} levels; worst case {o['max_page_reads']} reads (even split "
-            f"{u['max_page_reads']}){memory}."
-        )
-    return Text("\n".join(lines))
+        grid = Table.grid(padding=(0, 1))
+        grid.add_column(no_wrap=True, style="dim")
+        grid.add_column()
+        rows = [("  build:", item["build_in"] + "."), ("  cache:", item["cache"] + ".")]
+        for label, text in reversed(rows) if item["fits_in_pool"] else rows:
+            grid.add_row(label, text)
+        parts.append(grid)
+    return Group(*parts)
 
 
 def plans_table(run: dict) -> Table:
@@ -100,7 +96,7 @@ def plans_table(run: dict) -> Table:
             pct(p["saving"]),
             f"{p['lower_bound']:.3f}",
             pct(p["certified_gap"]),
-            "proven" if p["proven_optimal"] else f"within {pct(p['certified_gap'])}",
+            _optimal(run, p),
         )
     t.caption = (
         "gap = (advised - lower bound) / lower bound: the advised layout is at most this far above the best "
@@ -218,7 +214,7 @@ def render_run(run: dict) -> Group:
             )
         )
     if run["plans"]:
-        parts += [Panel(summary_text(run), title="The advice in one line per page size", title_align="left")]
+        parts += [Panel(summary_text(run), title="The advice per page size and structure", title_align="left")]
         parts += [plans_table(run), size_table(run), depth_table(run)]
         # optional sections: each returns None when the run holds none of its figures
         for section in (

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field, replace
 
+from .headline import advice_items, drift_warnings
 from .histogram import Histogram
 from .pagesize import best_choice
 from .planner import Plan
@@ -63,6 +64,7 @@ class RunResult:
     holdout: HoldoutResult | None = None
     page_size_choice: dict | None = None  # time per lookup per page size; the best marked
     current: dict | None = None  # the user's existing index (--current)
+    pool_bytes: int | None = None  # the buffer pool the user named (--pool-bytes); None: not given
 
     def beside(self, other: RunResult) -> RunResult:
         """Two structures' runs of one workload as one run: plans, held-out and page-size rows joined."""
@@ -85,4 +87,6 @@ class RunResult:
             run["page_size_choice"] = self.page_size_choice
         if self.current is not None:
             run["current"] = self.current
+        run["advice"] = advice_items(run, self.pool_bytes)
+        run["warnings"] = run["warnings"] + drift_warnings(run)
         return run

@@ -8,6 +8,7 @@ Guaranteed fields: ``keys``, ``lookups``, ``hits``, ``misses`` and ``plans``, ea
 
 from __future__ import annotations
 
+from .headline import DISCLAIMER, advice_items
 from .histogram import Histogram
 from .layout import Cost, Layout, mean_fill
 from .planner import Plan
@@ -29,6 +30,8 @@ def cost_dict(cost: Cost, layout: Layout | None = None, page_size: int | None = 
     }
     if layout is not None:
         out["mean_fill"] = mean_fill(layout)
+        if layout.pages and layout.leaf is not None:
+            out["leaf_depths"] = sorted({int(d) for d in layout.depths()[layout.leaf]})
     return out
 
 
@@ -66,7 +69,7 @@ def run_dict(
     pools: list[list[dict]] | None = None,
 ) -> dict:
     s = hist.summary()
-    return {
+    run = {
         "schema_version": SCHEMA_VERSION,
         "inputs": inputs,
         "keys": int(s["keys"]),
@@ -78,5 +81,9 @@ def run_dict(
         "plans": [plan_dict(p) | ({"buffer_pool": pools[i]} if pools else {}) for i, p in enumerate(plans)],
         "exports": exports or [],
         "warnings": hist.warnings(),
-        "advice": "Advice only: test any layout on a copy before production use.",
+        "advice": [],
+        "disclaimer": DISCLAIMER,
     }
+    # a run recomputes this once every section is measured (pool, held-out): RunResult.to_json
+    run["advice"] = advice_items(run, None)
+    return run

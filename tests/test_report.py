@@ -86,7 +86,7 @@ def test_svg_and_html_pictures(tmp_path):
     page = html.read_text()
     HTMLParser().feed(page)  # parses with the standard library's parser
     assert "<html" in page.lower() and "Traffic" in page and page.count("<svg") >= 3
-    assert "fewer pages per lookup" in page  # the advice in sentences, above the charts
+    assert "fewer page reads per lookup" in page  # the advice in sentences, above the charts
     # this project's own page: its heading and advice line, no window chrome, no external assets
     for text in (svg.read_text(), page):
         assert "advisor: page-layout advice" in text and "copy of your data" in text
