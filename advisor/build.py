@@ -8,7 +8,6 @@ prediction for the same lookups, computed from the file's own pages.
 
 from __future__ import annotations
 
-import bisect
 import os
 import time
 from dataclasses import dataclass
@@ -17,14 +16,15 @@ import duckdb
 import numpy as np
 
 from . import keycodec
+from .bufferpool import lookup_paths
 from .errors import InputInvalid
 from .histogram import Histogram
 from .layout import Layout, LayoutBuilder, evaluate
+from .lru_kernel import lru_miss_count
 from .pagefile import CLASSIC, LEAF, PagedIndex, parse_page, write_index
+from .pagefile_kernel import ABOVE, BELOW, EXACT, find_many
 from .planner import Plan
-from .workload import KEYS_TABLE, Workload, find_column, log_source, open_database, quote, table_sql
-
-REPLAY_BATCH = 100_000
+from .workload import KEYS_TABLE, Workload, load_workload, quote, table_sql
 
 
 def key_codes(wl: Workload) -> tuple[str, list[bytes], np.ndarray]:
@@ -113,96 +113,121 @@ def read_layout_from_file(index: PagedIndex) -> tuple[Layout, list[bytes]]:
     return b.build(), codes
 
 
-def _replay_values(con, log_sql: str, value_sql: str, weight_sql: str, order: str | None, limit: int | None):
-    o = f" ORDER BY {order}" if order else ""
-    lim = f" LIMIT {int(limit)}" if limit else ""
-    res = con.execute(
-        f"SELECT {value_sql} AS v, {weight_sql} AS w FROM {log_sql} WHERE {value_sql} IS NOT NULL{o}{lim}"
-    )
-    while True:
-        batch = res.fetchmany(REPLAY_BATCH)
-        if not batch:
-            break
-        yield batch
-
-
 def probe_index(
     path: str | os.PathLike,
     database: str | os.PathLike,
-    log: str,
+    log: str | None,
     log_column: str | None = None,
     count_column: str | None = None,
     order_column: str | None = None,
     limit: int | None = None,
     pool_pages: int = 0,
     cold: bool = False,
+    log_query: str | None = None,
 ) -> ProbeResult:
-    """Replay ``log`` against the index file; counted reads vs the evaluator's prediction."""
+    """Replay ``log`` against the index file; counted reads vs the evaluator's prediction.
+
+    Hits and misses are decided exactly as ``recommend`` decides them (the log ranked against the
+    table's keys in DuckDB, each value compared in its own type), so a DOUBLE 19.99 on a BIGINT
+    key is a miss in the gap below 20 and searches that gap. The file is searched by the
+    compiled reader (:mod:`advisor.pagefile_kernel`) over its memory map, once per log row; a
+    row's count weighs its page reads (repeats are not replayed one by one)."""
     with PagedIndex(path, pool_pages) as index:
         h = index.header
         layout, codes = read_layout_from_file(index)
+        with load_workload(database, h.table, h.key, log, log_column, count_column, True, None, log_query) as wl:
+            _, table_codes, truth = key_codes(wl)
+            if table_codes != codes:
+                raise InputInvalid(
+                    f"the keys of {h.table}.{h.key} differ from the file's ({len(table_codes):,} against "
+                    f"{len(codes):,}): the table changed since the file was built; rebuild it"
+                )
+            rank, mode, weight = _ranked_log(wl, order_column, limit)
         if cold:
             os.posix_fadvise(index.fd, 0, 0, os.POSIX_FADV_DONTNEED)
-        con = open_database(database)
-        try:
-            lsql, lname = log_source(con, log)
-            cols = {r[0]: r[1] for r in con.execute(f"DESCRIBE SELECT * FROM {lsql}").fetchall()}
-            vcol = find_column(cols, log_column or h.key, f"log {lname}")
-            value_sql = keycodec.sql_value(h.key_type, f"CAST({quote(vcol)} AS {h.key_type})")
-            weight = f"{quote(find_column(cols, count_column, f'log {lname}'))}::BIGINT" if count_column else "1"
-            order = quote(find_column(cols, order_column, f"log {lname}")) if order_column else None
-            truth = _true_rows(con, h)
-            lookups = found = wrong = 0
-            hits = np.zeros(len(codes))
-            gaps = np.zeros(len(codes) + 1)
-            seconds = 0.0  # only the index searches are timed, not reading the log
-            for batch in _replay_values(con, lsql, value_sql, weight, order, limit):
-                coded = [(keycodec.encode(h.codec, value), max(0, int(w))) for value, w in batch]
-                t0 = time.perf_counter()
-                for code, w in coded:
-                    for _ in range(w):
-                        row = index.find(code)
-                        lookups += 1
-                        if row is not None:
-                            found += 1
-                            wrong += truth.get(code) != row
-                seconds += time.perf_counter() - t0
-                for code, w in coded:  # the same lookups as a histogram, for the prediction
-                    i = bisect.bisect_left(codes, code)
-                    if i < len(codes) and codes[i] == code:
-                        hits[i] += w
-                    else:
-                        gaps[i] += w
-        except duckdb.Error as e:
-            raise InputInvalid(f"cannot replay the log: {str(e).strip().splitlines()[0]}") from None
-        finally:
-            con.close()
-        hist = Histogram(hits, gaps)
-        predicted = evaluate(layout, hist).expected_page_reads if hist.total > 0 else 0.0
-        per = lambda x: x / lookups if lookups else 0.0  # noqa: E731
-        return ProbeResult(
-            lookups,
-            found,
-            lookups - found,
-            per(index.pages_read),
-            predicted,
-            1e6 * per(seconds),
-            cold,
-            pool_pages,
-            per(index.pool_misses) if pool_pages else None,
-            int(wrong),
+        flat, starts, lengths = _flat_codes(codes)
+        rows = np.empty(rank.size, dtype=np.int64)
+        reads = np.empty(rank.size, dtype=np.int64)
+        stops = np.empty(rank.size, dtype=np.int64)
+        buf = index.mapped()
+        t0 = time.perf_counter()
+        find_many(
+            buf,
+            h.page_size,
+            h.root if h.pages else 0,
+            h.fixed_width,
+            flat,
+            starts,
+            lengths,
+            np.maximum(rank, 0),
+            mode,
+            rows,
+            reads,
+            stops,
         )
+        seconds = time.perf_counter() - t0
+    hit = mode == EXACT
+    n = len(codes)
+    found = rows >= 0
+    wrong = int((found != hit).sum() + (rows[found] != truth[rank[found]]).sum())
+    lookups = float(weight.sum())
+    hits = np.bincount(rank[hit], weights=weight[hit], minlength=n)[:n] if n else np.zeros(0)
+    gaps = np.bincount(np.where(mode == ABOVE, rank + 1, 0)[~hit], weights=weight[~hit], minlength=n + 1)[: n + 1]
+    hist = Histogram(hits.astype(np.float64), gaps.astype(np.float64))
+    predicted = evaluate(layout, hist).expected_page_reads if hist.total > 0 else 0.0
+    per = lambda x: x / lookups if lookups else 0.0  # noqa: E731
+    misses = None
+    if pool_pages:  # a row's repeats follow it at once: they find its path in the pool
+        paths = lookup_paths(layout)
+        misses = per(lru_miss_count(np.maximum(stops - 1, 0)[reads > 0], paths, pool_pages))
+    return ProbeResult(
+        _whole(lookups),
+        _whole(float(weight[found].sum())),
+        _whole(float(weight[~found].sum())),
+        per(float((reads * weight).sum())),
+        predicted,
+        1e6 * seconds / rank.size if rank.size else 0.0,
+        cold,
+        pool_pages,
+        misses,
+        wrong,
+    )
 
 
-def _true_rows(con, h) -> dict[bytes, int]:
-    """Each key's row number straight from the table (the check that found keys are right)."""
-    tsql = table_sql(con, h.table)
-    k = quote(h.key)
-    res = con.execute(
-        f"SELECT {keycodec.sql_value(h.key_type, k)} AS v, min(rowid)::BIGINT AS row FROM {tsql} "
-        f"WHERE {k} IS NOT NULL GROUP BY {k}"
-    ).fetchall()
-    return {keycodec.encode(h.codec, v): int(r) for v, r in res}
+def _whole(x: float) -> int | float:
+    return int(x) if float(x).is_integer() else float(x)
+
+
+def _ranked_log(wl: Workload, order_column: str | None, limit: int | None):
+    """Per log row, in replay order: the rank of the greatest key at or below its value (-1: none),
+    its search mode (EXACT for a hit, ABOVE that key or BELOW the first key for a miss) and weight."""
+    v = quote(wl.info["log_column"])
+    order = wl.log_column(order_column) if order_column else None
+    over = f"ORDER BY {order}" if order else ""
+    lim = f" LIMIT {int(limit)}" if limit else ""
+    try:
+        res = wl.con.execute(
+            f"WITH lg AS (SELECT * FROM (SELECT {v} AS v, ({wl.weight_sql})::DOUBLE AS w, "
+            f"row_number() OVER ({over}) AS i FROM {wl.log_sql} WHERE {v} IS NOT NULL) ORDER BY i{lim}) "
+            f"SELECT coalesce(kk.r, -1)::BIGINT AS r, coalesce(lg.v = kk.k, false) AS hit, lg.w AS w "
+            f"FROM lg ASOF LEFT JOIN {KEYS_TABLE} kk ON lg.v >= kk.k ORDER BY lg.i"
+        ).fetchnumpy()
+    except duckdb.Error as e:
+        raise InputInvalid(f"cannot replay the log: {str(e).strip().splitlines()[0]}") from None
+    rank = np.asarray(res["r"], dtype=np.int64)
+    hit = np.asarray(res["hit"], dtype=bool)
+    mode = np.where(hit, EXACT, np.where(rank >= 0, ABOVE, BELOW)).astype(np.int8)
+    return rank, mode, np.asarray(res["w"], dtype=np.float64)
+
+
+def _flat_codes(codes: list[bytes]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The key codes as one byte array with each code's start and length (the kernel's input)."""
+    lengths = np.fromiter((len(c) for c in codes), dtype=np.int64, count=len(codes))
+    starts = np.concatenate([[0], np.cumsum(lengths)[:-1]]).astype(np.int64) if codes else lengths
+    flat = np.frombuffer(b"".join(codes), dtype=np.uint8) if codes else np.zeros(1, dtype=np.uint8)
+    if not codes:  # an empty file: one dummy code so that rank 0 exists (the search reads nothing)
+        return flat, np.zeros(1, dtype=np.int64), np.zeros(1, dtype=np.int64)
+    return flat, starts, lengths
 
 
 __all__ = ["ProbeResult", "build_index", "probe_index", "read_layout_from_file"]

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import shlex
 from pathlib import Path
 from typing import Annotated
 
@@ -184,7 +185,8 @@ def build_cmd(
                 f"Wrote {summary['path']}: {summary['pages']:,} pages of {summary['page_size']:,} bytes "
                 f"({summary['layout']} {summary['model']} layout), predicted "
                 f"{summary['predicted_page_reads']:.3f} page reads per lookup. "
-                "Measure it with: advisor probe FILE DATABASE --log LOG"
+                f"Measure it with: advisor probe {shlex.quote(summary['path'])} {shlex.quote(str(database))} "
+                + (f"--log {shlex.quote(log)}" if log else f"--log-sql {shlex.quote(str(log_sql))}")
             )
 
 
@@ -195,11 +197,12 @@ def probe_cmd(
     ],
     database: DatabaseArg,
     log: Annotated[
-        str,
+        str | None,
         option(
             "--log", "Lookup log to replay: a table in the database, or a .parquet/.csv file.", IN, metavar="TABLE|FILE"
         ),
-    ],
+    ] = None,
+    log_sql: LogSqlOpt = None,
     log_column: LogColumnOpt = None,
     count_column: CountColumnOpt = None,
     order_column: Annotated[
@@ -237,7 +240,10 @@ def probe_cmd(
     with guard():
         from .build import probe_index
 
+        need_log(log, log_sql)
         if index_file.suffix.lower() == ".parquet":
+            if log_sql is not None:
+                raise SettingInvalid("probing a Parquet file takes --log, not --log-sql, yet")
             res = probe_parquet_cmd(
                 index_file, database, log, log_column, count_column, table, key, limit or 20_000, seed, as_json
             )
@@ -245,7 +251,18 @@ def probe_cmd(
                 raise LayoutInvalid(f"{res['wrong_rows']} rows found in the file differ from the table")
             return
 
-        res = probe_index(index_file, database, log, log_column, count_column, order_column, limit, pool_pages, cold)
+        res = probe_index(
+            index_file,
+            database,
+            log,
+            log_column,
+            count_column,
+            order_column,
+            limit,
+            pool_pages,
+            cold,
+            read_query(log_sql),
+        )
         if as_json:
             print(json.dumps(res.as_dict(), indent=2))
         else:

@@ -22,6 +22,7 @@ order (DuckDB's ``rowid``; the first row of a repeated value with --distinct-key
 from __future__ import annotations
 
 import bisect
+import mmap
 import os
 import struct
 from collections import OrderedDict
@@ -32,7 +33,7 @@ import numpy as np
 
 from . import keycodec
 from .atomic import atomic_path
-from .errors import InputInvalid, OutputRefused, SettingInvalid
+from .errors import InputInvalid, InputNotFound, OutputRefused, SettingInvalid
 from .layout import Layout
 
 MAGIC = b"ADVPGIX1"
@@ -212,7 +213,7 @@ class PagedIndex:
         try:
             self.fd = os.open(self.path, os.O_RDONLY)
         except FileNotFoundError:
-            raise InputInvalid(f"index file not found: {path}") from None
+            raise InputNotFound(f"index file not found: {path}") from None
         try:
             self.header = read_header(self.fd)
         except Exception:
@@ -222,6 +223,7 @@ class PagedIndex:
         self._pool: OrderedDict[int, Page] = OrderedDict()
         self.pages_read = 0
         self.pool_misses = 0
+        self._map: mmap.mmap | None = None
 
     def page(self, number: int) -> Page:
         self.pages_read += 1
@@ -255,11 +257,26 @@ class PagedIndex:
             number = page.children[i]
         return None
 
+    def mapped(self) -> np.ndarray:
+        """The whole file as a read-only byte array over a memory map (for the compiled reader:
+        a page is read when the search first touches it, from the operating system's cache or the
+        device)."""
+        if self._map is None:
+            size = os.fstat(self.fd).st_size
+            self._map = mmap.mmap(self.fd, size, prot=mmap.PROT_READ) if size else None
+        return np.frombuffer(self._map, dtype=np.uint8) if self._map is not None else np.zeros(1, dtype=np.uint8)
+
     def get(self, key) -> int | None:
         """Row number of ``key`` (a Python value of the key's type), or None when absent."""
         return self.find(keycodec.encode_value(self.header.codec, key))
 
     def close(self) -> None:
+        if self._map is not None:
+            try:
+                self._map.close()
+            except BufferError:  # an array still views it; the map closes when that is freed
+                pass
+            self._map = None
         if self.fd >= 0:
             os.close(self.fd)
             self.fd = -1

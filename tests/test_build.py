@@ -157,3 +157,141 @@ def test_build_refuses_to_overwrite_and_probe_refuses_a_foreign_file(dbs):
     foreign.write_bytes(b"not an index" * 100)
     res = runner.invoke(app, ["probe", str(foreign), str(db), "--log", "lg_ints"])
     assert res.exit_code == 4 and "magic" in res.stderr
+
+
+@pytest.mark.parametrize("table", ["ints", "words"])
+@pytest.mark.parametrize("model", [[], ["--model", "bplus"]])
+def test_compiled_reader_agrees_with_the_plain_reader_on_every_key_and_gap(dbs, table, model):
+    """The compiled batch reader (advisor.pagefile_kernel) against the plain page-parsing reader:
+    the same row and the same page count for every key, and for a value in every gap (searched
+    as just above the key below it, and below the first key)."""
+    from advisor.build import _flat_codes, read_layout_from_file
+    from advisor.pagefile_kernel import ABOVE, BELOW, EXACT, find_many
+
+    db, root = dbs
+    out = root / f"agree-{table}-{len(model)}.idx"
+    extra = ["--key-bytes", "8"] if table == "words" else []
+    assert _build(db, out, table, f"lg_{table}", "--page-size", "512", "--force", *model, *extra).exit_code == 0
+    with PagedIndex(out) as index:
+        h = index.header
+        _, codes = read_layout_from_file(index)
+        n = len(codes)
+        which = np.concatenate([np.arange(n), np.arange(n), [0]])
+        modes = np.concatenate([np.full(n, EXACT), np.full(n, ABOVE), [BELOW]]).astype(np.int8)
+        rows, reads, stops = (np.empty(which.size, dtype=np.int64) for _ in range(3))
+        flat, starts, lengths = _flat_codes(codes)
+        find_many(
+            index.mapped(), h.page_size, h.root, h.fixed_width, flat, starts, lengths, which, modes, rows, reads, stops
+        )
+        for j, (r, m) in enumerate(zip(which.tolist(), modes.tolist(), strict=True)):
+            code = codes[r] if m == EXACT else codes[r] + b"\x00" if m == ABOVE else b""  # just above / below
+            before = index.pages_read
+            row = index.find(code)
+            assert (row if row is not None else -1) == rows[j]
+            assert index.pages_read - before == reads[j]
+    assert (rows[:n] >= 0).all() and (rows[n:] == -1).all()
+
+
+@pytest.fixture(scope="module")
+def typed(tmp_path_factory):
+    """Invented: BIGINT and DATE keys probed by logs of another type (DOUBLE, TIMESTAMP) and with
+    count columns (whole, fractional, huge)."""
+    path = tmp_path_factory.mktemp("typed") / "t.duckdb"
+    con = duckdb.connect(str(path))
+    con.execute("CREATE TABLE nums AS SELECT range * 10 AS k FROM range(500)")
+    con.execute(
+        "CREATE TABLE dnums AS SELECT (range * 10)::DOUBLE + CASE WHEN range % 3 = 0 THEN 0.5 ELSE 0 END AS k, "
+        "CASE WHEN range % 7 = 0 THEN 3000000000 ELSE 2 END AS n, 1.5 AS frac FROM range(400)"
+    )
+    con.execute("CREATE TABLE days AS SELECT DATE '2020-01-01' + range::INTEGER AS k FROM range(300)")
+    con.execute(
+        "CREATE TABLE stamps AS SELECT TIMESTAMP '2020-01-01' + INTERVAL (range * 6) HOUR AS k FROM range(1000)"
+    )
+    con.close()
+    return path
+
+
+def _json(args):
+    res = runner.invoke(app, args)
+    assert res.exit_code == 0, res.stderr
+    return json.loads(res.stdout)
+
+
+def test_probe_decides_hits_as_recommend_does_across_types(typed, tmp_path):
+    """A DOUBLE 19.99-style value on a BIGINT key and a TIMESTAMP between midnights on a DATE key
+    are misses for recommend; probe counted them as the next key's hit before (review defect)."""
+    for table, log in (("nums", "dnums"), ("days", "stamps")):
+        out = tmp_path / f"{table}.idx"
+        base = [str(typed), "--table", table, "--key", "k", "--log", log]
+        assert _build(typed, out, table, log, "--page-size", "512").exit_code == 0
+        plan = _json(["recommend", *base, "--page-size", "512", "--json", "--no-frontier", "--exact-seconds", "0"])
+        probe = _json(["probe", str(out), str(typed), "--log", log, "--json"])
+        assert probe["found"] == plan["hits"] and probe["not_found"] == plan["misses"] and probe["wrong_rows"] == 0
+        assert probe["page_reads_per_lookup"] == pytest.approx(probe["predicted_page_reads_per_lookup"], rel=1e-12)
+
+
+def test_probe_counts_as_recommend_counts(typed, tmp_path):
+    """Counts weigh a row's reads (3e9 does not replay one by one); fractional counts are refused
+    as recommend refuses them; a missing index file is exit 3."""
+    out = tmp_path / "nums.idx"
+    assert _build(typed, out, "nums", "dnums", "--page-size", "512").exit_code == 0
+    probe = _json(["probe", str(out), str(typed), "--log", "dnums", "--count-column", "n", "--json"])
+    plan = _json(
+        [
+            "recommend",
+            str(typed),
+            "--table",
+            "nums",
+            "--key",
+            "k",
+            "--log",
+            "dnums",
+            "--count-column",
+            "n",
+            "--page-size",
+            "512",
+            "--json",
+            "--no-frontier",
+            "--exact-seconds",
+            "0",
+        ]
+    )
+    assert probe["lookups"] == plan["lookups"] and probe["found"] == plan["hits"]
+    assert probe["page_reads_per_lookup"] == pytest.approx(probe["predicted_page_reads_per_lookup"], rel=1e-9)
+    bad = runner.invoke(app, ["probe", str(out), str(typed), "--log", "dnums", "--count-column", "frac"])
+    assert bad.exit_code == 4 and len(bad.stderr.strip().splitlines()) == 1
+    gone = runner.invoke(app, ["probe", str(tmp_path / "nope.idx"), str(typed), "--log", "dnums"])
+    assert gone.exit_code == 3 and "not found" in gone.stderr
+
+
+def test_build_prints_the_probe_command_and_probe_takes_a_log_query(dbs, tmp_path):
+    db, root = dbs
+    out = tmp_path / "q.idx"
+    res = runner.invoke(
+        app,
+        [
+            "build",
+            str(db),
+            "--table",
+            "ints",
+            "--key",
+            "k",
+            "--log",
+            "lg_ints",
+            "--page-size",
+            "512",
+            "--out",
+            str(out),
+        ],
+    )
+    assert res.exit_code == 0, res.stderr
+    said = " ".join(res.stdout.split())
+    assert f"advisor probe {out} {db} --log lg_ints" in said
+    query = tmp_path / "log.sql"
+    query.write_text("SELECT k FROM lg_ints WHERE seq < 5000")
+    by_sql = _json(["probe", str(out), str(db), "--log-sql", str(query), "--json"])
+    limited = _json(
+        ["probe", str(out), str(db), "--log", "lg_ints", "--order-column", "seq", "--limit", "5000", "--json"]
+    )
+    assert by_sql["lookups"] == limited["lookups"] == 5000
+    assert by_sql["page_reads_per_lookup"] == pytest.approx(limited["page_reads_per_lookup"], rel=1e-12)
