@@ -25,7 +25,6 @@ import time
 from pathlib import Path
 
 import duckdb
-import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from gen import build  # noqa: E402
