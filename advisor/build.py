@@ -17,12 +17,12 @@ import numpy as np
 
 from . import keycodec
 from .bufferpool import lookup_paths
-from .errors import InputInvalid
+from .errors import InputInvalid, SettingInvalid
 from .histogram import Histogram
 from .layout import Layout, LayoutBuilder, evaluate
 from .lru_kernel import lru_miss_count
 from .pagefile import CLASSIC, LEAF, PagedIndex, parse_page, write_index
-from .pagefile_kernel import ABOVE, BELOW, EXACT, find_many
+from .pagefile_kernel import ABOVE, BELOW, EXACT, find_many, visit_page
 from .planner import Plan
 from .workload import KEYS_TABLE, Workload, load_workload, quote, table_sql
 
@@ -230,4 +230,117 @@ def _flat_codes(codes: list[bytes]) -> tuple[np.ndarray, np.ndarray, np.ndarray]
     return flat, starts, lengths
 
 
-__all__ = ["ProbeResult", "build_index", "probe_index", "read_layout_from_file"]
+DIRECT_LOOKUPS = 20_000  # --direct replays this many log rows by default: each page read waits for the device
+
+
+def time_direct(
+    paths: list[str | os.PathLike],
+    database: str | os.PathLike,
+    log: str | None,
+    log_column: str | None = None,
+    count_column: str | None = None,
+    order_column: str | None = None,
+    limit: int | None = None,
+    blocks: int = 20,
+    log_query: str | None = None,
+) -> dict:
+    """Device time per lookup and per page read of one or more index files of the same keys.
+
+    Every page is read with ``O_DIRECT`` into a page-aligned buffer (an anonymous memory map), so
+    each counted read bypasses the operating system's cache and reaches the device (a virtual
+    disk may still be cached by its host: the figures are what this machine's device answers).
+    The log rows are cut into ``blocks`` blocks and the files take turns block by block (the order
+    reversed every other block), so drift in the machine falls on every file alike; the spread
+    is over blocks. A row is one lookup here (its count is not a weight: time is per search)."""
+    indexes = [PagedIndex(p) for p in paths]
+    try:
+        first = indexes[0].header
+        codes = None
+        for ix in indexes:
+            h = ix.header
+            if (h.table, h.key, h.codec) != (first.table, first.key, first.codec):
+                raise InputInvalid(f"{ix.path} indexes {h.table}.{h.key}, not {first.table}.{first.key}")
+            _, file_codes = read_layout_from_file(ix)
+            if codes is not None and file_codes != codes:
+                raise InputInvalid(f"{ix.path} holds other keys than {indexes[0].path}")
+            codes = file_codes
+        with load_workload(
+            database, first.table, first.key, log, log_column, count_column, True, None, log_query
+        ) as wl:
+            rank, mode, _ = _ranked_log(wl, order_column, limit or DIRECT_LOOKUPS)
+        fds = [_open_direct(ix.path) for ix in indexes]
+        try:
+            return _timed_blocks(indexes, fds, codes, rank, mode, max(1, min(blocks, rank.size or 1)))
+        finally:
+            for fd in fds:
+                os.close(fd)
+    finally:
+        for ix in indexes:
+            ix.close()
+
+
+def _open_direct(path) -> int:
+    try:
+        return os.open(path, os.O_RDONLY | os.O_DIRECT)
+    except (OSError, AttributeError) as e:
+        reason = getattr(e, "strerror", None) or "not supported here"
+        raise SettingInvalid(f"{path}: this filesystem refuses direct reads (O_DIRECT: {reason})") from None
+
+
+def _timed_blocks(indexes, fds, codes, rank, mode, blocks: int) -> dict:
+    import mmap
+
+    flat, kstarts, klens = _flat_codes(codes)
+    which = np.maximum(rank, 0)
+    cuts = np.linspace(0, rank.size, blocks + 1).astype(np.int64)
+    size = max(ix.header.page_size for ix in indexes)
+    buf = mmap.mmap(-1, size)  # page-aligned, as O_DIRECT needs
+    view = np.frombuffer(buf, dtype=np.uint8)
+    starts = np.empty(size, dtype=np.int64)
+    lengths = np.empty(size, dtype=np.int64)
+    visit_page(np.zeros(size, dtype=np.uint8), 0, flat, 0, 0, EXACT, starts, lengths)  # compile/load outside the clock
+    per_block = np.zeros((len(indexes), blocks))
+    reads = np.zeros(len(indexes), dtype=np.int64)
+    found = np.zeros(len(indexes), dtype=np.int64)
+    for b in range(blocks):
+        order = range(len(indexes)) if b % 2 == 0 else range(len(indexes) - 1, -1, -1)
+        for f in order:
+            h, fd = indexes[f].header, fds[f]
+            ps = h.page_size
+            page_view = view[:ps]
+            t0 = time.perf_counter()
+            for j in range(cuts[b], cuts[b + 1]):
+                page, row, w, m = h.root if h.pages else 0, -1, which[j], mode[j]
+                while page:
+                    try:
+                        os.preadv(fd, [memoryview(buf)[:ps]], page * ps)
+                    except OSError as e:
+                        raise SettingInvalid(f"{indexes[f].path}: a direct read failed ({e.strerror})") from None
+                    reads[f] += 1
+                    page, row = visit_page(page_view, h.fixed_width, flat, kstarts[w], klens[w], m, starts, lengths)
+                found[f] += row >= 0
+            per_block[f, b] = (time.perf_counter() - t0) / max(1, cuts[b + 1] - cuts[b])
+    n = int(rank.size)
+    files = []
+    for f, ix in enumerate(indexes):
+        us = 1e6 * per_block[f]
+        mean = float(us.mean()) if n else 0.0
+        pages = reads[f] / n if n else 0.0
+        files.append(
+            {
+                "path": str(ix.path),
+                "page_size": ix.header.page_size,
+                "model": ix.header.structure,
+                "lookups": n,
+                "found": int(found[f]),
+                "page_reads_per_lookup": float(pages),
+                "microseconds_per_lookup": mean,
+                "microseconds_per_lookup_median": float(np.median(us)) if n else 0.0,
+                "microseconds_per_lookup_spread": [float(us.min()), float(us.max())] if n else [0.0, 0.0],
+                "microseconds_per_page_read": float(mean / pages) if pages else 0.0,
+            }
+        )
+    return {"direct": True, "blocks": blocks, "files": files}
+
+
+__all__ = ["ProbeResult", "build_index", "probe_index", "read_layout_from_file", "time_direct"]

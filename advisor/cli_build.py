@@ -48,8 +48,8 @@ from .cli_options import (
 )
 from .cli_rowgroups import build_parquet_cmd, parse_columns, probe_parquet_cmd
 from .cli_support import check_model, guard, need_log, read_query
-from .errors import LayoutInvalid, OutputRefused, SettingInvalid
-from .report import render_probe
+from .errors import LayoutInvalid, OutputRefused, SettingInvalid, UsageError
+from .report import render_direct, render_probe
 from .rowgroups.plan import EVEN_ROWS, MIN_ROWS, RowGroupOptions
 from .structures import structure_names
 from .workload import load_workload
@@ -191,11 +191,14 @@ def build_cmd(
 
 
 def probe_cmd(
-    index_file: Annotated[
-        Path,
-        typer.Argument(help="An index file written by advisor build, or a key-sorted .parquet file.", metavar="FILE"),
+    targets: Annotated[
+        list[Path],
+        typer.Argument(
+            help="An index file written by advisor build (several with --direct), or a key-sorted .parquet file; "
+            "then the DuckDB database (opened read-only).",
+            metavar="FILE... DATABASE",
+        ),
     ],
-    database: DatabaseArg,
     log: Annotated[
         str | None,
         option(
@@ -234,13 +237,40 @@ def probe_cmd(
         str | None, option("--key", "Parquet: the key column (default: from its metadata).", IN, metavar="COLUMN")
     ] = None,
     seed: Annotated[int, option("--seed", "Parquet: seed of the lookup sample.", IN, metavar="N")] = 1,
+    direct: Annotated[
+        bool,
+        option(
+            "--direct",
+            "Time every page read on the device (O_DIRECT), files taking turns block by block (default --limit 20000).",
+            WL,
+        ),
+    ] = False,
 ) -> None:
     """Replay a log against an index file (page reads counted against the model's prediction), or
     sampled lookups through DuckDB against a Parquet file (bytes counted by DuckDB's profiler)."""
     with guard():
-        from .build import probe_index
+        from .build import probe_index, time_direct
 
         need_log(log, log_sql)
+        if len(targets) < 2:
+            raise UsageError("give an index file and the database: advisor probe FILE DATABASE --log LOG")
+        *files, database = targets
+        if direct:
+            if any(f.suffix.lower() == ".parquet" for f in files) or pool_pages or cold:
+                raise SettingInvalid(
+                    "--direct times index files written by advisor build, without --pool-pages or --cold"
+                )
+            res = time_direct(
+                files, database, log, log_column, count_column, order_column, limit, log_query=read_query(log_sql)
+            )
+            if as_json:
+                print(json.dumps(res, indent=2))
+            else:
+                Console(highlight=False).print(render_direct(res))
+            return
+        if len(files) > 1:
+            raise UsageError("several files are timed side by side with --direct; without it, probe one file")
+        (index_file,) = files
         if index_file.suffix.lower() == ".parquet":
             if log_sql is not None:
                 raise SettingInvalid("probing a Parquet file takes --log, not --log-sql, yet")

@@ -51,6 +51,44 @@ def _compare(buf, start, length, keys, kstart, klen):
     return -1 if length < klen else 1
 
 
+@njit(cache=True, inline="always")
+def _visit(buf, base, fixed, keys, ks, kl, mode, starts, lengths):
+    """One page at byte ``base`` of ``buf``: (the next page's number, 0 at the end; the row or -1)."""
+    kind = buf[base]
+    count = _u32(buf, base + 4)
+    pos = base + 8
+    if fixed:
+        for i in range(count):
+            starts[i] = pos + i * fixed
+            lengths[i] = fixed
+        pos += count * fixed
+    else:
+        for i in range(count):
+            ln = np.int64(buf[pos]) | (np.int64(buf[pos + 1]) << 8)
+            starts[i] = pos + 2
+            lengths[i] = ln
+            pos += 2 + ln
+    lo, hi = 0, count
+    while lo < hi:  # keys below the probe code
+        mid = (lo + hi) >> 1
+        if _compare(buf, starts[mid], lengths[mid], keys, ks, kl) < 0:
+            lo = mid + 1
+        else:
+            hi = mid
+    equal = lo < count and _compare(buf, starts[lo], lengths[lo], keys, ks, kl) == 0
+    if kind == _INTERNAL:  # child = separators at or below the value
+        slot = lo if mode == BELOW else lo + (1 if equal else 0)
+        return _u32(buf, pos + 4 * slot), np.int64(-1)
+    if kind == _LEAF:
+        if mode == EXACT and equal:
+            return np.int64(0), _u64(buf, pos + 4 + 8 * lo)
+        return np.int64(0), np.int64(-1)
+    if mode == EXACT and equal:  # classic page: the key's own row, or the child between its neighbours
+        return np.int64(0), _u64(buf, pos + 4 * (count + 1) + 8 * lo)
+    slot = lo + (1 if (mode == ABOVE and equal) else 0)
+    return _u32(buf, pos + 4 * slot), np.int64(-1)
+
+
 @njit(cache=True)
 def find_many(buf, page_size, root, fixed, keys, kstarts, klens, which, modes, rows, reads, stops):
     """For lookup j (the code ``which[j]`` of ``keys``, searched in ``modes[j]``): its row number
@@ -59,47 +97,17 @@ def find_many(buf, page_size, root, fixed, keys, kstarts, klens, which, modes, r
     lengths = np.empty(page_size, dtype=np.int64)
     for j in range(which.shape[0]):
         ks, kl, mode = kstarts[which[j]], klens[which[j]], modes[j]
-        page, visits, row, last = root, 0, -1, 0
+        page, visits, row, last = root, 0, np.int64(-1), 0
         while page != 0:
-            base = page * page_size
             visits += 1
             last = page
-            kind = buf[base]
-            count = _u32(buf, base + 4)
-            pos = base + 8
-            if fixed:
-                for i in range(count):
-                    starts[i] = pos + i * fixed
-                    lengths[i] = fixed
-                pos += count * fixed
-            else:
-                for i in range(count):
-                    ln = np.int64(buf[pos]) | (np.int64(buf[pos + 1]) << 8)
-                    starts[i] = pos + 2
-                    lengths[i] = ln
-                    pos += 2 + ln
-            lo, hi = 0, count
-            while lo < hi:  # keys below the probe code
-                mid = (lo + hi) >> 1
-                if _compare(buf, starts[mid], lengths[mid], keys, ks, kl) < 0:
-                    lo = mid + 1
-                else:
-                    hi = mid
-            equal = lo < count and _compare(buf, starts[lo], lengths[lo], keys, ks, kl) == 0
-            if kind == _INTERNAL:  # child = separators at or below the value
-                slot = lo if mode == BELOW else lo + (1 if equal else 0)
-                page = _u32(buf, pos + 4 * slot)
-            elif kind == _LEAF:
-                if mode == EXACT and equal:
-                    row = _u64(buf, pos + 4 + 8 * lo)
-                page = 0
-            else:  # classic page: the key's own row, or the child between its neighbours
-                if mode == EXACT and equal:
-                    row = _u64(buf, pos + 4 * (count + 1) + 8 * lo)
-                    page = 0
-                else:
-                    slot = lo + (1 if (mode == ABOVE and equal) else 0)
-                    page = _u32(buf, pos + 4 * slot)
+            page, row = _visit(buf, page * page_size, fixed, keys, ks, kl, mode, starts, lengths)
         rows[j] = row
         reads[j] = visits
         stops[j] = last
+
+
+@njit(cache=True)
+def visit_page(page, fixed, keys, ks, kl, mode, starts, lengths):
+    """One page read by the caller (``probe --direct``): (next page number or 0, row or -1)."""
+    return _visit(page, 0, fixed, keys, ks, kl, mode, starts, lengths)
