@@ -17,11 +17,11 @@ import numpy as np
 
 from . import keycodec
 from .bufferpool import lookup_paths
-from .errors import InputInvalid, SettingInvalid
+from .errors import InputInvalid, LayoutInvalid, SettingInvalid
 from .histogram import Histogram
 from .layout import Layout, LayoutBuilder, evaluate
 from .lru_kernel import lru_miss_count
-from .pagefile import CLASSIC, LEAF, PagedIndex, parse_page, write_index
+from .pagefile import CLASSIC, LEAF, PagedIndex, check_page, parse_page, write_index
 from .pagefile_kernel import ABOVE, BELOW, EXACT, find_many, visit_page
 from .planner import Plan
 from .workload import KEYS_TABLE, Workload, load_workload, quote, table_sql
@@ -88,7 +88,13 @@ def read_layout_from_file(index: PagedIndex) -> tuple[Layout, list[bytes]]:
     """The tree the file holds, as a :class:`Layout` over key ranks, and the sorted key codes
     (read without counting page reads)."""
     h = index.header
-    pages = [parse_page(os.pread(index.fd, h.page_size, (p + 1) * h.page_size), h.fixed_width) for p in range(h.pages)]
+    pages = []
+    for p in range(h.pages):  # every page's checksum is checked here, before any search
+        raw = os.pread(index.fd, h.page_size, (p + 1) * h.page_size)
+        if len(raw) < h.page_size:
+            raise LayoutInvalid(f"{index.path}: ends before page {p + 1} of {h.pages}: the file is damaged")
+        check_page(raw, p + 1, index.path)
+        pages.append(parse_page(raw, h.fixed_width))
     leafy = [pg.kind in (CLASSIC, LEAF) for pg in pages]
     codes = sorted({c for pg, keep in zip(pages, leafy, strict=True) if keep for c in pg.keys})
     rank = {c: i for i, c in enumerate(codes)}
@@ -317,6 +323,7 @@ def _timed_blocks(indexes, fds, codes, rank, mode, blocks: int) -> dict:
                     except OSError as e:
                         raise SettingInvalid(f"{indexes[f].path}: a direct read failed ({e.strerror})") from None
                     reads[f] += 1
+                    check_page(buf[:ps], page, indexes[f].path)  # as an engine checks a page read from disk
                     page, row = visit_page(page_view, h.fixed_width, flat, kstarts[w], klens[w], m, starts, lengths)
                 found[f] += row >= 0
             per_block[f, b] = (time.perf_counter() - t0) / max(1, cuts[b + 1] - cuts[b])

@@ -18,7 +18,7 @@ from rich.console import Console
 from . import interrupt
 from .advise import PageSettings, Request, analyse, export_paths
 from .budget import BudgetSpec
-from .cli_build import build_cmd, probe_cmd
+from .cli_build import build_cmd, probe_cmd, verify_cmd
 from .cli_options import (
     ChildOpt,
     ColumnsOpt,
@@ -348,6 +348,7 @@ def demo_cmd(
 
 app.command("build")(build_cmd)
 app.command("probe")(probe_cmd)
+app.command("verify")(verify_cmd)
 
 
 def main() -> None:  # pragma: no cover - console script entry

@@ -299,3 +299,22 @@ def probe_cmd(
             Console(highlight=False).print(render_probe(res.as_dict(), str(index_file)))
         if res.wrong_rows:
             raise LayoutInvalid(f"{res.wrong_rows} found keys returned a row number that is not their table row")
+
+
+def verify_cmd(
+    index_file: Annotated[Path, typer.Argument(help="An index file written by advisor build.", metavar="FILE")],
+    as_json: JsonOpt = False,
+) -> None:
+    """Check every page's checksum and the tree's invariants (order, links, leaf chain, key count);
+    the first problem is one line naming the page, exit 8."""
+    with guard():
+        from .verify import verify_file
+
+        res = verify_file(index_file)
+        if as_json:
+            print(json.dumps(res | {"ok": True}, indent=2))
+        else:
+            print(
+                f"{res['path']}: sound: {res['pages']:,} pages, {res['keys']:,} keys, {res['height']} levels "
+                f"({'B+' if res['structure'] == 'bplus' else 'classic'} tree); every checksum and invariant holds"
+            )
