@@ -297,6 +297,7 @@ def _direct_supported(path) -> bool:
         return False
 
 
+@pytest.mark.slow  # two files built and timed on the device
 def test_direct_times_files_side_by_side_with_the_counted_reads(dbs, tmp_path):
     """--direct: every page read with O_DIRECT, files taking turns; the reads it counts equal the
     compiled reader's for the same lookups (rows replayed once each), in both files."""

@@ -74,7 +74,15 @@ def test_json_follows_the_contract(small_db):
         assert p["lower_bound"] <= p["optimized"]["expected_page_reads"] <= p["uniform"]["expected_page_reads"]
 
 
-@pytest.mark.parametrize("suffix", [".csv", ".json", ".parquet", ".duckdb"])
+@pytest.mark.parametrize(
+    "suffix",
+    [
+        ".csv",
+        pytest.param(".json", marks=pytest.mark.slow),
+        ".parquet",
+        pytest.param(".duckdb", marks=pytest.mark.slow),
+    ],
+)
 def test_export_round_trips_to_the_same_cost(small_db, tmp_path, suffix):
     target = tmp_path / f"layout{suffix}"
     # the near-optimal path alone (no exact re-solve): the export does not depend on how the plan was found

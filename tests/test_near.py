@@ -39,7 +39,9 @@ def test_balanced_layout_is_valid_and_replays(spread, c):
     check_layout(heaviest_first_layout(hist, c))
 
 
-@pytest.mark.parametrize("s", [0.8, 1.0, 1.2])
+@pytest.mark.parametrize(
+    "s", [pytest.param(0.8, marks=pytest.mark.slow), 1.0, pytest.param(1.2, marks=pytest.mark.slow)]
+)
 @pytest.mark.parametrize("clustered", [False, True])
 def test_planner_without_exact_is_between_bound_and_uniform(s, clustered):
     hist = _zipf_hist(3000, s, 5, clustered=clustered)
