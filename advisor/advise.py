@@ -24,7 +24,7 @@ from .geometry import (
 )
 from .histogram import Histogram
 from .holdout import holdout_rows
-from .layout import evaluate
+from .layout import Layout, evaluate
 from .logreads import load_replay, load_scans, load_split, ranked_keys, truncated_separator_bytes
 from .optimize.bounds import forget_sorted_key_weights
 from .pagesize import PROFILES, StorageProfile, default_pool_bytes, page_size_table
@@ -103,6 +103,25 @@ def advise(
         plans.append(plan_capacity(hist, c, g, options, step))
     forget_sorted_key_weights(hist)  # every capacity's bounds are known: free their sorted weights
     return plans
+
+
+LAYOUTS = ("advised", "even", "balanced")
+
+
+def chosen_layout(plan: Plan, hist: Histogram, which: str, pool_pages: list[int] | None = None) -> tuple[Layout, float]:
+    """One plan's layout to export or build, with its expected page reads: the advised layout,
+    the even split, or (B+ only) the balanced shape, every leaf at the even split's depth with
+    leaf boundaries cut for the pool (the one an engine with one leaf depth can hold)."""
+    if which == "advised":
+        return plan.recommended, plan.recommended_cost.expected_page_reads
+    if which == "even":
+        return plan.uniform, plan.uniform_cost.expected_page_reads
+    if which != "balanced":
+        raise SettingInvalid(f"the layout is one of {', '.join(LAYOUTS)}, not {which!r}")
+    if not plan.structure.has_balanced_shape:
+        raise SettingInvalid("the balanced layout is a B+ tree: give --model bplus")
+    layout = balanced_bplus_layout(hist, plan.uniform, pool_pages)[0]
+    return layout, evaluate(layout, hist).expected_page_reads
 
 
 def export_paths(path: str | Path, plans: list[Plan], only: int | None = None) -> list[tuple[Plan, Path]]:

@@ -49,12 +49,13 @@ def build_index(
     replace: bool = False,
     page_size: int | None = None,
 ) -> dict:
-    """Write one plan's advised or even-split layout as an index file; returns its summary."""
-    chosen: Layout = plan.recommended if layout == "advised" else plan.uniform
+    """Write one plan's advised, even-split or balanced layout as an index file; returns its summary."""
+    from .advise import chosen_layout
+
     size = page_size or plan.page_size
     if not size:
         raise InputInvalid("building a file needs a page size (give --page-size)")
-    predicted = (plan.recommended_cost if layout == "advised" else plan.uniform_cost).expected_page_reads
+    chosen, predicted = chosen_layout(plan, wl.hist, layout)
     codec, codes, rows = key_codes(wl)
     out = write_index(path, chosen, codes, rows, size, codec, wl.key_type, wl.table, wl.key, predicted, replace)
     return {
@@ -64,6 +65,7 @@ def build_index(
         "layout": layout,
         "model": plan.model,
         "predicted_page_reads": float(predicted),
+        "leaf_depths": sorted({int(d) for d in chosen.depths()[chosen.leaf]}) if chosen.leaf is not None else None,
     }
 
 

@@ -16,7 +16,7 @@ import typer
 from rich.console import Console
 
 from . import interrupt
-from .advise import PageSettings, Request, analyse, export_paths
+from .advise import PageSettings, Request, analyse, chosen_layout, export_paths
 from .budget import BudgetSpec
 from .cli_build import build_cmd, probe_cmd, verify_cmd
 from .cli_options import (
@@ -28,6 +28,7 @@ from .cli_options import (
     DistinctOpt,
     ExactOpt,
     ExportForOpt,
+    ExportLayoutOpt,
     ExportOpt,
     FanoutOpt,
     FillOpt,
@@ -120,6 +121,7 @@ def _run(
     svg=None,
     html=None,
     log_sql=None,
+    export_layout="advised",
 ):
     """Open, analyse, export, render: the whole command, with no figures computed here."""
     if export is not None:
@@ -148,8 +150,10 @@ def _run(
                 targets_out = export_paths(export, result.plans, export_for)
                 for _, path in targets_out:
                     check_target(path, force)
+                chosen = [chosen_layout(plan, wl.hist, export_layout)[0] for plan, _ in targets_out]
                 run["exports"] = [
-                    str(write_layout(wl, plan.recommended, path, replace=force)) for plan, path in targets_out
+                    str(write_layout(wl, layout, path, replace=force))
+                    for layout, (_, path) in zip(chosen, targets_out, strict=True)
                 ]
             run["timings"] = {
                 "histogram_seconds": round(t_hist, 3),
@@ -185,6 +189,7 @@ def recommend_cmd(
     as_json: JsonOpt = False,
     export: ExportOpt = None,
     export_for: ExportForOpt = None,
+    export_layout: ExportLayoutOpt = "advised",
     force: ForceOpt = False,
     distinct_keys: DistinctOpt = False,
     pool_pages: PoolOpt = None,
@@ -250,7 +255,12 @@ def recommend_cmd(
                 force,
             )
             return
+        if export_layout not in ("advised", "even", "balanced"):
+            raise SettingInvalid(f"--export-layout must be advised, even or balanced, got {export_layout!r}")
+        if export_layout == "balanced" and model != "bplus":
+            raise SettingInvalid("--export-layout balanced is a B+ tree: give --model bplus")
         unused = [
+            (export_layout != "advised" and export is None, "--export-layout has no effect without --export"),
             (holdout != 0.2 and not order_column, "--holdout has no effect without --order-column"),
             (replay_limit != 20_000_000 and not order_column, "--replay-limit has no effect without --order-column"),
             (
@@ -308,6 +318,7 @@ def recommend_cmd(
             svg,
             html,
             log_sql,
+            export_layout,
         )
 
 

@@ -98,9 +98,10 @@ def build_cmd(
         str,
         option(
             "--layout",
-            "Which layout to write: advised or even (the even split, to compare).",
+            "Which layout to write: advised, even (the even split, to compare) or balanced (B+: every leaf "
+            "at one depth, leaves cut for the pool).",
             OUT,
-            metavar="advised|even",
+            metavar="advised|even|balanced",
         ),
     ] = "advised",
     max_pages: MaxPagesOpt = "even",
@@ -145,8 +146,10 @@ def build_cmd(
             )
             return
 
-        if layout not in ("advised", "even"):
-            raise SettingInvalid(f"--layout must be advised or even, got {layout!r}")
+        if layout not in ("advised", "even", "balanced"):
+            raise SettingInvalid(f"--layout must be advised, even or balanced, got {layout!r}")
+        if layout == "balanced" and model != "bplus":
+            raise SettingInvalid("--layout balanced is a B+ tree: give --model bplus")
         check_model(model, [keys_per_page] if keys_per_page else None, fanout)
         if len(structure_names(model)) != 1:
             raise SettingInvalid("a build writes one structure: --model btree or bplus")

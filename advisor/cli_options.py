@@ -148,6 +148,15 @@ ExportForOpt = Annotated[
     int | None,
     option("--export-for", "Export only the plan for this page size (or keys per page).", OUT, metavar="SIZE"),
 ]
+ExportLayoutOpt = Annotated[
+    str,
+    option(
+        "--export-layout",
+        "Which layout --export writes: advised, even, or balanced (B+: every leaf at one depth).",
+        OUT,
+        metavar="advised|even|balanced",
+    ),
+]
 ForceOpt = Annotated[bool, option("--force", "Replace an existing output file.", OUT)]
 SvgOpt = Annotated[Path | None, option("--svg", "Also save the whole report as an SVG picture.", OUT, metavar="FILE")]
 HtmlOpt = Annotated[Path | None, option("--html", "Also save the whole report as an HTML page.", OUT, metavar="FILE")]

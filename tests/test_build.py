@@ -54,7 +54,7 @@ def test_built_file_reads_what_the_model_predicts(dbs, table, model):
     res = _build(db, out, table, f"lg_{table}", "--page-size", "512", "--force", *model, *extra)
     assert res.exit_code == 0, res.stderr
     built = json.loads(res.stdout)
-    assert set(built) == {"path", "pages", "page_size", "layout", "model", "predicted_page_reads"}
+    assert set(built) == {"path", "pages", "page_size", "layout", "model", "predicted_page_reads", "leaf_depths"}
     assert out.stat().st_size == (built["pages"] + 1) * 512
     probe = runner.invoke(app, ["probe", str(out), str(db), "--log", f"lg_{table}", "--json"])
     assert probe.exit_code == 0, probe.stderr
@@ -361,3 +361,36 @@ def test_direct_refused_where_the_filesystem_refuses_it(dbs, tmp_path, monkeypat
     monkeypatch.setattr(advisor.build.os, "open", refusing)
     res = runner.invoke(app, ["probe", str(built), str(db), "--log", "lg_ints", "--direct"])
     assert res.exit_code == 5 and "O_DIRECT" in res.stderr and len(res.stderr.strip().splitlines()) == 1
+
+
+def test_balanced_layout_builds_with_every_leaf_at_one_depth(dbs, tmp_path):
+    """--layout balanced (B+): every leaf at the even split's depth in the file, verify passes,
+    counted reads equal predicted (the height, for every lookup), and the export writes the same."""
+    from advisor.verify import verify_file
+
+    db, _ = dbs
+    out = tmp_path / "bal.idx"
+    res = _build(db, out, "ints", "lg_ints", "--page-size", "512", "--model", "bplus", "--layout", "balanced")
+    assert res.exit_code == 0, res.stderr
+    built = json.loads(res.stdout)
+    assert built["layout"] == "balanced" and len(built["leaf_depths"]) == 1
+    even = _build(
+        db, tmp_path / "e.idx", "ints", "lg_ints", "--page-size", "512", "--model", "bplus", "--layout", "even"
+    )
+    assert json.loads(even.stdout)["leaf_depths"] == built["leaf_depths"]
+    assert verify_file(out)["height"] == built["leaf_depths"][0]
+    probe = _json(["probe", str(out), str(db), "--log", "lg_ints", "--json"])
+    assert probe["page_reads_per_lookup"] == pytest.approx(built["predicted_page_reads"], rel=1e-12)
+    assert probe["page_reads_per_lookup"] == pytest.approx(built["leaf_depths"][0])
+    export = tmp_path / "bal.json"
+    args = ["recommend", str(db), "--table", "ints", "--key", "k", "--log", "lg_ints", "--page-size", "512"]
+    run = _json(
+        [*args, "--model", "bplus", "--export-layout", "balanced", "--export", str(export), "--no-frontier", "--json"]
+    )
+    assert run["exports"] == [str(export)]
+    pages = json.loads(export.read_text())  # one object per page (README: the export's columns)
+    assert {p["depth"] for p in pages if p["is_leaf"]} == set(built["leaf_depths"])
+    bad = runner.invoke(app, [*args, "--export-layout", "balanced", "--export", str(tmp_path / "x.json")])
+    assert bad.exit_code == 5 and "--model bplus" in bad.stderr
+    bad = _build(db, tmp_path / "y.idx", "ints", "lg_ints", "--page-size", "512", "--layout", "balanced")
+    assert bad.exit_code == 5 and "--model bplus" in bad.stderr
