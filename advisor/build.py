@@ -57,6 +57,9 @@ def build_index(
         raise InputInvalid("building a file needs a page size (give --page-size)")
     chosen, predicted = chosen_layout(plan, wl.hist, layout)
     codec, codes, rows = key_codes(wl)
+    longest = max((len(c) for c in codes), default=0)
+    if longest > 65_535:
+        raise SettingInvalid(f"the longest key is {longest:,} bytes; the index file stores keys of up to 65,535 bytes")
     out = write_index(path, chosen, codes, rows, size, codec, wl.key_type, wl.table, wl.key, predicted, replace)
     return {
         "path": str(out),

@@ -70,10 +70,18 @@ def fixed_width(codec: str) -> int:
 def sql_value(key_type: str, expr: str) -> str:
     """SQL turning ``expr`` (of the key's type) into the value :func:`encode` takes."""
     t = key_type.upper()
+    # infinities sort beyond every finite value (as in DuckDB): coded as the type's extremes,
+    # which is how DuckDB stores them (int32 / int64 max, and its negation)
     if t == "DATE":
-        return f"({expr} - DATE '1970-01-01')::BIGINT"
+        return (
+            f"CASE WHEN isinf({expr}) THEN (CASE WHEN {expr} > DATE '1970-01-01' THEN 2147483647 ELSE -2147483647 END)"
+            f" ELSE ({expr} - DATE '1970-01-01') END::BIGINT"
+        )
     if t in TIMESTAMPS:
-        return f"epoch_us({expr}::TIMESTAMP)"
+        return (
+            f"CASE WHEN isinf({expr}::TIMESTAMP) THEN (CASE WHEN {expr}::TIMESTAMP > TIMESTAMP '1970-01-01' "
+            f"THEN 9223372036854775807 ELSE -9223372036854775807 END) ELSE epoch_us({expr}::TIMESTAMP) END"
+        )
     if t in FLOATS:
         return f"({expr})::DOUBLE"
     if t in STRINGS:

@@ -394,3 +394,43 @@ def test_balanced_layout_builds_with_every_leaf_at_one_depth(dbs, tmp_path):
     assert bad.exit_code == 5 and "--model bplus" in bad.stderr
     bad = _build(db, tmp_path / "y.idx", "ints", "lg_ints", "--page-size", "512", "--layout", "balanced")
     assert bad.exit_code == 5 and "--model bplus" in bad.stderr
+
+
+def test_infinite_timestamps_and_dates_build_and_probe(tmp_path):
+    """TIMESTAMP and DATE infinities (review defect: build exited 1) are coded beyond every
+    finite value, as DuckDB orders them; every key is found at its own row."""
+    from advisor.verify import verify_file
+
+    db = tmp_path / "inf.duckdb"
+    con = duckdb.connect(str(db))
+    con.execute(
+        "CREATE TABLE ts AS SELECT k FROM (SELECT TIMESTAMP '2020-01-01' + INTERVAL (range) HOUR AS k FROM range(300) "
+        "UNION ALL SELECT 'infinity'::TIMESTAMP UNION ALL SELECT '-infinity'::TIMESTAMP) ORDER BY hash(k)"
+    )
+    con.execute(
+        "CREATE TABLE ds AS SELECT k FROM (SELECT DATE '2020-01-01' + range::INTEGER AS k FROM range(300) "
+        "UNION ALL SELECT 'infinity'::DATE UNION ALL SELECT '-infinity'::DATE) ORDER BY hash(k)"
+    )
+    con.close()
+    for table in ("ts", "ds"):
+        out = tmp_path / f"{table}.idx"
+        res = runner.invoke(
+            app,
+            ["build", str(db), "--table", table, "--key", "k", "--log", table, "--page-size", "512", "--out", str(out)],
+        )
+        assert res.exit_code == 0, res.stderr
+        probe = _json(["probe", str(out), str(db), "--log", table, "--json"])
+        assert probe["lookups"] == probe["found"] == 302 and probe["wrong_rows"] == 0
+        assert verify_file(out)["keys"] == 302
+
+
+def test_a_key_longer_than_the_file_stores_is_refused_up_front(tmp_path):
+    db = tmp_path / "long.duckdb"
+    con = duckdb.connect(str(db))
+    con.execute("CREATE TABLE w AS SELECT repeat('x', 70000) || range AS k FROM range(3)")
+    con.close()
+    out = tmp_path / "w.idx"
+    args = ["build", str(db), "--table", "w", "--key", "k", "--log", "w", "--out", str(out)]
+    res = runner.invoke(app, [*args, "--page-size", "65536", "--key-bytes", "8"])
+    assert res.exit_code == 5 and "70,001 bytes" in res.stderr and len(res.stderr.strip().splitlines()) == 1
+    assert not out.exists()
