@@ -21,6 +21,7 @@ from .geometry import (
     DEFAULT_RECORD_POINTER,
     Geometry,
     geometry_for,
+    longest_keys_width,
 )
 from .histogram import Histogram
 from .holdout import holdout_rows
@@ -56,8 +57,12 @@ class PageSettings:
         return structure_for(self.model, 0, self.fill_factor, self.internal_fill)
 
 
-def capacities(settings: PageSettings, measured_key_bytes: float) -> list[tuple[int, Geometry | None]]:
-    """(c, geometry) for every requested size; defaults to the common page sizes."""
+def capacities(
+    settings: PageSettings, measured_key_bytes: float, key_lengths: np.ndarray | None = None
+) -> list[tuple[int, Geometry | None]]:
+    """(c, geometry) for every requested size; defaults to the common page sizes. Variable-length
+    keys (``key_lengths``, longest first) are sized per page size by their longest keys
+    (:func:`advisor.geometry.longest_keys_width`) unless --key-bytes gives a width."""
     out: list[tuple[int, Geometry | None]] = []
     shape = settings.structure
     for c in settings.keys_per_page:
@@ -69,8 +74,13 @@ def capacities(settings: PageSettings, measured_key_bytes: float) -> list[tuple[
     for size in sizes:
         if size < 1:
             raise SettingInvalid(f"page size must be positive, got {size}")
+        width = kb
+        if settings.key_bytes is None and key_lengths is not None:
+            width = longest_keys_width(
+                key_lengths, size, settings.page_header, settings.record_pointer, settings.child_pointer
+            )
         g = geometry_for(
-            size, kb, settings.page_header, settings.record_pointer, settings.child_pointer, settings.fill_factor
+            size, width, settings.page_header, settings.record_pointer, settings.child_pointer, settings.fill_factor
         )
         out.append((shape.capacity(g), g))
     return out
@@ -177,7 +187,7 @@ def plan_one(wl: Workload, req: Request) -> Plan:
     s = req.settings
     if len(structure_names(s.model)) != 1:
         raise SettingInvalid("a build writes one structure: --model btree or bplus")
-    targets = capacities(s, wl.key_bytes)
+    targets = capacities(s, wl.key_bytes, wl.key_lengths)
     if len(targets) != 1:
         raise SettingInvalid(f"a build writes one page size; {len(targets)} were asked for (give one --page-size)")
     if req.truncate_separators:
@@ -248,7 +258,7 @@ def analyse(wl: Workload, req: Request, on_plan: Callable[[int, str], None] | No
 def _analyse_structure(wl: Workload, req: Request, reads: LogReads, on_plan) -> RunResult:
     """The whole run for one structure (``req.settings.model`` is btree or bplus)."""
     s = req.settings
-    targets = capacities(s, wl.key_bytes)
+    targets = capacities(s, wl.key_bytes, wl.key_lengths)
     if req.truncate_separators:
         targets = [(c, replace(g, separator_bytes=truncated_separator_bytes(wl, c)) if g else g) for c, g in targets]
     unique = list({(c, g.page_size if g else None): (c, g) for c, g in targets}.values())
@@ -264,7 +274,9 @@ def _analyse_structure(wl: Workload, req: Request, reads: LogReads, on_plan) -> 
         holdout = HoldoutResult(req.holdout, train.total, test.total, rows)
     profile = req.storage or PROFILES["nvme"]
     choice = page_size_table(plans, wl.hist, profile, _table_pool_bytes(req, plans))
-    return RunResult(wl.hist, _inputs(wl, reads), tuple(results), holdout, choice if choice["rows"] else None)
+    return RunResult(
+        wl.hist, _inputs(wl, reads, req.settings.key_bytes), tuple(results), holdout, choice if choice["rows"] else None
+    )
 
 
 def _measure(hist, idx: int, p: Plan, req: Request, reads: LogReads, options, pool_bytes: int, on_plan) -> PlanResult:
@@ -314,13 +326,20 @@ def _table_pool_bytes(req: Request, plans: list[Plan]) -> int:
     return default_pool_bytes(plans)
 
 
-def _inputs(wl: Workload, reads: LogReads) -> dict:
+def _inputs(wl: Workload, reads: LogReads, given_key_bytes: float | None = None) -> dict:
     return {
         "database": wl.info.get("database"),
         "table": wl.table,
         "key": wl.key,
         "key_type": wl.key_type,
         "key_bytes": round(wl.key_bytes, 2),
+        "key_sizing": (
+            f"--key-bytes {given_key_bytes:g}"
+            if given_key_bytes is not None
+            else "by the longest keys a page could hold (the mean would let pages of long keys overflow)"
+            if wl.key_lengths is not None
+            else "the type's fixed width"
+        ),
         "log": wl.log or "(none)",
         **{k: v for k, v in wl.info.items() if k != "database"},
         "replayed_lookups": int(reads.replay.outcomes.size) if reads.replay is not None else None,

@@ -13,6 +13,8 @@ from __future__ import annotations
 import math
 from dataclasses import asdict, dataclass
 
+import numpy as np
+
 from .errors import SettingInvalid
 
 DEFAULT_PAGE_SIZES = (4096, 8192, 16384)
@@ -139,3 +141,24 @@ def geometry_for(
         int(page_size), int(page_header), float(key_bytes), int(record_pointer), int(child_pointer), float(fill_factor)
     )
     return g
+
+
+def longest_keys_width(
+    lengths: np.ndarray, page_size: int, page_header: int, record_pointer: int, child_pointer: int
+) -> float:
+    """The key width to size pages of variable-length keys so that every page can be built.
+
+    ``lengths`` are the keys' stored widths (length prefix included), longest first. A page of an
+    advised layout may hold any c keys (hot keys are lifted from anywhere), so c is safe only if
+    the c longest keys fit: the largest such c is found from the running sum, and the width
+    returned is those keys' mean. Any capacity floor(room / (width + extra)) computed from it is
+    safe too, because the mean of the c' longest keys never exceeds it for c' >= c. With widths
+    that follow key order, sizing by the plain mean let whole pages of long keys overflow."""
+    if lengths.size == 0:
+        return 1.0
+    room = page_size - page_header
+    per = np.cumsum(lengths.astype(np.float64)) + np.arange(1, lengths.size + 1) * (record_pointer + child_pointer)
+    c = int(np.searchsorted(per, room, side="right"))  # the c longest keys fit: per[c - 1] <= room
+    if c == 0:
+        return float(lengths[0])  # not even the longest key fits: the geometry says so
+    return float(per[c - 1] - c * (record_pointer + child_pointer)) / c

@@ -110,6 +110,7 @@ class Workload:
     log_sql: str = ""  # the log as an SQL relation, resolved once
     log_columns: dict = field(default_factory=dict)  # its column names and types
     weight_sql: str = "1"  # lookups per log row: 1, or the checked count column
+    key_lengths: np.ndarray | None = None  # variable-length keys: stored widths, longest first
 
     def log_column(self, name: str) -> str:
         """Quoted name of a log column (exact, then case-insensitive match), or InputNotFound."""
@@ -297,10 +298,12 @@ def _load(con, table, key, log, log_column, count_column, distinct_keys) -> Work
     if rows - null_keys > n and distinct_keys:
         run_sql(con, f"CREATE OR REPLACE TEMP TABLE {KEYS_TABLE} AS SELECT DISTINCT k, r FROM {KEYS_TABLE}")
     key_bytes = fixed_key_bytes(ktype)
+    key_lengths = None
     if key_bytes is None:
         width = "octet_length(k)" if ktype.upper().startswith(("BLOB", "BIT")) else "strlen(k::VARCHAR)"
-        avg = con.execute(f"SELECT avg({width}) FROM {KEYS_TABLE}").fetchall()[0][0]
-        key_bytes = float(avg or 0.0) + LENGTH_PREFIX
+        got = con.execute(f"SELECT {width}::BIGINT AS w FROM {KEYS_TABLE} ORDER BY w DESC").fetchnumpy()["w"]
+        key_lengths = np.asarray(got, dtype=np.int64) + LENGTH_PREFIX
+        key_bytes = float(key_lengths.mean()) if key_lengths.size else float(LENGTH_PREFIX)
     info = {
         "table_rows": int(rows),
         "null_keys": int(null_keys),
@@ -313,7 +316,7 @@ def _load(con, table, key, log, log_column, count_column, distinct_keys) -> Work
         )
     if log is None:
         hist = Histogram(np.zeros(n), np.zeros(n + 1), 0.0)
-        return Workload(con, hist, ktype, key_bytes, table, kcol, "", info)
+        return Workload(con, hist, ktype, key_bytes, table, kcol, "", info, key_lengths=key_lengths)
     lsql, lname = log_source(con, log)
     lcols = _columns(con, lsql, f"log {lname}")
     vcol = find_column(lcols, log_column or kcol, f"log {lname}")
@@ -333,7 +336,7 @@ def _load(con, table, key, log, log_column, count_column, distinct_keys) -> Work
             f"{_first_line(str(e))}"
         ) from None
     hist = Histogram(p.astype(np.float64), q.astype(np.float64), float(nulls))
-    return Workload(con, hist, ktype, key_bytes, table, kcol, lname, info, lsql, lcols, weight)
+    return Workload(con, hist, ktype, key_bytes, table, kcol, lname, info, lsql, lcols, weight, key_lengths)
 
 
 def aggregate(con, probes_sql: str, n: int) -> tuple[np.ndarray, np.ndarray]:

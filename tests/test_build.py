@@ -434,3 +434,44 @@ def test_a_key_longer_than_the_file_stores_is_refused_up_front(tmp_path):
     res = runner.invoke(app, [*args, "--page-size", "65536", "--key-bytes", "8"])
     assert res.exit_code == 5 and "70,001 bytes" in res.stderr and len(res.stderr.strip().splitlines()) == 1
     assert not out.exists()
+
+
+@pytest.fixture(scope="module")
+def growing(tmp_path_factory):
+    """Invented SKUs whose length grows with their order (7 to 66 bytes, mean 36.5), looked up
+    by a Zipf 1.2 log: sized by the mean width, every page size and structure below overflowed."""
+    path = tmp_path_factory.mktemp("grow") / "g.duckdb"
+    con = duckdb.connect(str(path))
+    con.execute(
+        "CREATE TABLE skus AS SELECT chr(65 + (range * 26 // 20000)::INTEGER) "
+        "|| repeat('z', (range * 60 // 20000)::INTEGER) || lpad(range::VARCHAR, 6, '0') AS k FROM range(20000)"
+    )
+    rng = np.random.default_rng(1)
+    con.register("i", {"i": ((rng.zipf(1.2, 30000) - 1) % 20000).astype(np.int64)})
+    con.execute(
+        "CREATE TABLE lg AS SELECT s.k FROM i JOIN (SELECT k, row_number() OVER (ORDER BY k) - 1 AS r FROM skus) s "
+        "ON s.r = i.i"
+    )
+    con.close()
+    return path
+
+
+@pytest.mark.parametrize("model", ["btree", "bplus"])
+@pytest.mark.parametrize("size", ["1024", "4096"])
+def test_variable_length_keys_sized_by_their_longest_build_what_recommend_plans(growing, tmp_path, model, size):
+    out = tmp_path / "g.idx"
+    args = ["--table", "skus", "--key", "k", "--log", "lg", "--page-size", size, "--model", model]
+    planned = _json(["recommend", str(growing), *args, "--json", "--no-frontier", "--exact-seconds", "0"])
+    assert "longest keys" in planned["inputs"]["key_sizing"]
+    (plan,) = planned["plans"]
+    assert plan["geometry"]["key_bytes"] > planned["inputs"]["key_bytes"]  # wider than the mean
+    res = runner.invoke(app, ["build", str(growing), *args, "--exact-seconds", "0", "--out", str(out), "--json"])
+    assert res.exit_code == 0, res.stderr
+    built = json.loads(res.stdout)
+    assert built["predicted_page_reads"] == pytest.approx(plan["optimized"]["expected_page_reads"], rel=1e-12)
+    probe = _json(["probe", str(out), str(growing), "--log", "lg", "--json"])
+    assert probe["wrong_rows"] == 0 and probe["found"] == probe["lookups"]
+    assert probe["page_reads_per_lookup"] == pytest.approx(built["predicted_page_reads"], rel=1e-12)
+    mean = f"{planned['inputs']['key_bytes']:g}"  # the old sizing by the mean width overflows a page
+    old = runner.invoke(app, ["build", str(growing), *args, "--key-bytes", mean, "--out", str(tmp_path / "m.idx")])
+    assert old.exit_code == 5 and "needs" in old.stderr
