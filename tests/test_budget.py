@@ -196,6 +196,7 @@ def test_cli_impossible_or_bad_budget_is_one_line_exit_5(db, args, words):
         assert w in err
 
 
+@pytest.mark.slow  # several full runs
 def test_fill_factor_sets_the_classic_baseline_and_its_budget():
     """A bulk loader's fill factor (common practice: leaves well short of full) makes the even
     split larger; the default budget is that baseline's size, which the advice may fill."""

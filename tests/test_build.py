@@ -45,7 +45,7 @@ def _build(db, out, table, log, *extra):
     )
 
 
-@pytest.mark.parametrize("table", ["ints", "words", "days"])
+@pytest.mark.parametrize("table", ["ints", pytest.param("words", marks=pytest.mark.slow), "days"])
 @pytest.mark.parametrize("model", [[], ["--model", "bplus"]])
 def test_built_file_reads_what_the_model_predicts(dbs, table, model):
     db, root = dbs
@@ -457,7 +457,7 @@ def growing(tmp_path_factory):
 
 
 @pytest.mark.parametrize("model", ["btree", "bplus"])
-@pytest.mark.parametrize("size", ["1024", "4096"])
+@pytest.mark.parametrize("size", [pytest.param("1024", marks=pytest.mark.slow), "4096"])
 def test_variable_length_keys_sized_by_their_longest_build_what_recommend_plans(growing, tmp_path, model, size):
     out = tmp_path / "g.idx"
     args = ["--table", "skus", "--key", "k", "--log", "lg", "--page-size", size, "--model", model]
