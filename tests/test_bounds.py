@@ -72,9 +72,23 @@ def _runs(mask: np.ndarray) -> int:
     return int(np.sum(mask[1:] & ~mask[:-1]) + mask[0]) if mask.size else 0
 
 
-@settings(max_examples=60, deadline=None)
-@given(n=st.integers(1, 11), c=st.integers(1, 5), heavy=st.integers(1, 12), seed=st.integers(0, 10_000))
+_SUBSETS = dict(n=st.integers(1, 11), c=st.integers(1, 5), heavy=st.integers(1, 12), seed=st.integers(0, 10_000))
+
+
+@settings(max_examples=20, deadline=None)
+@given(**_SUBSETS)
 def test_runs_weight_upper_bounds_every_subset(n, c, heavy, seed):
+    _upper_bounds_every_subset(n, c, heavy, seed)
+
+
+@pytest.mark.slow
+@settings(max_examples=150, deadline=None)
+@given(**_SUBSETS)
+def test_runs_weight_upper_bounds_every_subset_many(n, c, heavy, seed):
+    _upper_bounds_every_subset(n, c, heavy, seed)
+
+
+def _upper_bounds_every_subset(n, c, heavy, seed):
     # brute force over all 2^n key subsets: the most weight of <= c keys in exactly r runs
     w = np.random.default_rng(seed).integers(0, 50, n).astype(float)
     upper = runs_weight_upper(w, c, heavy)

@@ -154,7 +154,7 @@ def test_bplus_scan_pages_follow_the_leaf_chain():
     assert scan_pages(layout, np.array([12]), np.array([12])).tolist() == [depth]
 
 
-@pytest.mark.parametrize("clustered", [False, True])
+@pytest.mark.parametrize("clustered", [pytest.param(False, marks=pytest.mark.slow), True])
 def test_balanced_shape_properties(clustered):
     from advisor.balanced import balanced_bplus_layout
     from advisor.bufferpool import pinned_misses

@@ -250,6 +250,7 @@ def test_fill_factors_of_leaves_and_internal_pages_in_both_even_splits():
         assert part.recommended_cost.expected_page_reads <= full.recommended_cost.expected_page_reads + 1e-12
 
 
+@pytest.mark.slow
 def test_pilot_construction_keeps_the_budget_and_beats_every_plain_variant():
     """The pilot method (Duin & Voss, Networks 34, 1999) never does worse than the heuristic
     it completes with: at each page it tries every variant's page, and a variant's own page

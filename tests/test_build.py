@@ -125,6 +125,7 @@ def test_key_codes_keep_duckdb_order():
     assert sorted(encode_value("int32", d) for d in days) == [encode_value("int32", d) for d in days]
 
 
+@pytest.mark.slow
 def test_overflowing_page_is_refused_and_nothing_is_written(dbs):
     db, root = dbs
     out = root / "tight.idx"
@@ -159,7 +160,7 @@ def test_build_refuses_to_overwrite_and_probe_refuses_a_foreign_file(dbs):
     assert res.exit_code == 4 and "magic" in res.stderr
 
 
-@pytest.mark.parametrize("table", ["ints", "words"])
+@pytest.mark.parametrize("table", ["ints", pytest.param("words", marks=pytest.mark.slow)])
 @pytest.mark.parametrize("model", [[], ["--model", "bplus"]])
 def test_compiled_reader_agrees_with_the_plain_reader_on_every_key_and_gap(dbs, table, model):
     """The compiled batch reader (advisor.pagefile_kernel) against the plain page-parsing reader:
