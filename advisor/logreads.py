@@ -31,7 +31,7 @@ def load_replay(wl: Workload, order_column: str, limit: int = 20_000_000):
 
     lsql, o = wl.log_sql, wl.log_column(order_column)
     v = quote(wl.info["log_column"])
-    w = f"({wl.weight_sql})::BIGINT"
+    w = f"({wl.weight_sql})::DOUBLE"
     n = wl.hist.n
     rows = wl.con.execute(
         f"WITH lg AS (SELECT {v} AS v, {o} AS o, {w} AS w FROM {lsql} WHERE {v} IS NOT NULL "
@@ -41,10 +41,18 @@ def load_replay(wl: Workload, order_column: str, limit: int = 20_000_000):
     ).fetchnumpy()
     # outcome ids run to 2n: int32 while that fits (half the memory of the replayed log)
     ids = np.asarray(rows.pop("id"), dtype=np.int32 if 2 * n + 1 < 2**31 else np.int64)
-    reps = np.asarray(rows.pop("w"), dtype=np.int64)
+    reps = whole_repeats(np.asarray(rows.pop("w"), dtype=np.float64))
     if reps.size and reps.min() == 1 and reps.max() == 1:  # one lookup per row: nothing to repeat
         return Replay(ids[: int(limit)], n)
     return Replay(np.repeat(ids, reps)[: int(limit)], n)
+
+
+def whole_repeats(weights: np.ndarray) -> np.ndarray:
+    """How many times to replay each row: its count, rounded so that the running total of the
+    repeats stays within one half of the running total of the counts (fractional counts from a
+    sampled log; whole counts come out unchanged)."""
+    running = np.floor(np.cumsum(weights) + 0.5).astype(np.int64)
+    return np.diff(running, prepend=0)
 
 
 def load_scans(wl: Workload, scan_to: str) -> tuple[np.ndarray, np.ndarray, np.ndarray, Histogram]:

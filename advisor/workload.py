@@ -323,7 +323,9 @@ def _load(con, table, key, log, log_column, count_column, distinct_keys) -> Work
     weight = "1"
     if count_column:
         ccol = find_column(lcols, count_column, f"log {lname}")
-        weight = _checked_count(con, lsql, ccol, lcols[ccol], lname)
+        weight, fractional = _checked_count(con, lsql, ccol, lcols[ccol], lname)
+        if fractional:  # a sampled log scaled by its rate: the counts are weights, not whole lookups
+            info["fractional_count_rows"] = fractional
     v = quote(vcol)
     info |= {"log_column": vcol, "log_type": lcols[vcol], "count_column": count_column}
     probes = f"SELECT {v} AS v, sum({weight})::DOUBLE AS w FROM {lsql} GROUP BY {v}"
@@ -357,7 +359,8 @@ def aggregate(con, probes_sql: str, n: int) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _checked_count(con, lsql: str, col: str, ctype: str, lname: str) -> str:
-    """SQL for the count column after rejecting NULL, NaN, negative or fractional counts."""
+    """SQL for the count column after rejecting NULL, NaN, negative or infinite counts, and how many
+    rows hold a fractional count (accepted as a weight: a sampled log scaled by its rate)."""
     c = quote(col)
     t = ctype.upper()
     if not (
@@ -384,7 +387,7 @@ def _checked_count(con, lsql: str, col: str, ctype: str, lname: str) -> str:
     nulls, neg, nans, fracs = con.execute(
         f"SELECT count(*) FILTER (WHERE {c} IS NULL), count(*) FILTER (WHERE {c} < 0), {nan}, {frac} FROM {lsql}"
     ).fetchall()[0]
-    for bad, what in ((nulls, "NULL"), (nans, "NaN"), (neg, "negative"), (fracs, "fractional")):
+    for bad, what in ((nulls, "NULL"), (nans, "NaN"), (neg, "negative")):
         if bad:
             raise InputInvalid(f"count column {col!r} in {lname} has {bad} {what} value(s)")
     if floaty:
@@ -394,4 +397,4 @@ def _checked_count(con, lsql: str, col: str, ctype: str, lname: str) -> str:
     total = con.execute(f"SELECT sum({c}::DOUBLE) FROM {lsql}").fetchall()[0][0]
     if total is not None and not math.isfinite(total):
         raise InputInvalid(f"count column {col!r} in {lname} sums to more than a double holds")
-    return f"{c}::DOUBLE"
+    return f"{c}::DOUBLE", int(fracs)

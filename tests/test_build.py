@@ -202,7 +202,7 @@ def typed(tmp_path_factory):
     con.execute("CREATE TABLE nums AS SELECT range * 10 AS k FROM range(500)")
     con.execute(
         "CREATE TABLE dnums AS SELECT (range * 10)::DOUBLE + CASE WHEN range % 3 = 0 THEN 0.5 ELSE 0 END AS k, "
-        "CASE WHEN range % 7 = 0 THEN 3000000000 ELSE 2 END AS n, 1.5 AS frac FROM range(400)"
+        "CASE WHEN range % 7 = 0 THEN 3000000000 ELSE 2 END AS n, 1.25 AS frac, -1 AS neg FROM range(400)"
     )
     con.execute("CREATE TABLE days AS SELECT DATE '2020-01-01' + range::INTEGER AS k FROM range(300)")
     con.execute(
@@ -241,15 +241,18 @@ def test_probe_decides_hits_as_recommend_does_across_types(typed, tmp_path):
 
 
 def test_probe_counts_as_recommend_counts(typed, tmp_path):
-    """Counts weigh a row's reads (3e9 does not replay one by one); fractional counts are refused
-    as recommend refuses them; a missing index file is exit 3."""
+    """Counts weigh a row's reads (3e9 does not replay one by one); fractional counts weigh alike
+    and negative ones are refused, as in recommend; a missing index file is exit 3."""
     out = tmp_path / "nums.idx"
     assert _build(typed, out, "nums", "dnums", "--page-size", "512").exit_code == 0
     probe = _json(["probe", str(out), str(typed), "--log", "dnums", "--count-column", "n", "--json"])
     lookups, hits, _ = _recommend_counts(typed, "nums", "dnums", "n")
     assert lookups > 1e11 and probe["lookups"] == lookups and probe["found"] == hits
     assert probe["page_reads_per_lookup"] == pytest.approx(probe["predicted_page_reads_per_lookup"], rel=1e-9)
-    bad = runner.invoke(app, ["probe", str(out), str(typed), "--log", "dnums", "--count-column", "frac"])
+    frac = _json(["probe", str(out), str(typed), "--log", "dnums", "--count-column", "frac", "--json"])
+    lookups, hits, _ = _recommend_counts(typed, "nums", "dnums", "frac")  # fractional counts weigh alike
+    assert frac["lookups"] == lookups and frac["found"] == hits
+    bad = runner.invoke(app, ["probe", str(out), str(typed), "--log", "dnums", "--count-column", "neg"])
     assert bad.exit_code == 4 and len(bad.stderr.strip().splitlines()) == 1
     gone = runner.invoke(app, ["probe", str(tmp_path / "nope.idx"), str(typed), "--log", "dnums"])
     assert gone.exit_code == 3 and "not found" in gone.stderr

@@ -11,6 +11,7 @@ import sys
 from pathlib import Path
 
 import duckdb
+import numpy as np
 import pytest
 from typer.testing import CliRunner
 
@@ -64,11 +65,30 @@ def test_incomparable_log_type_names_both_types(basic):
     one_line_error(plan(basic, log="words"), 4, "VARCHAR", "INTEGER")
 
 
-@pytest.mark.parametrize(
-    "table, what", [("counted", "negative"), ("frac", "fractional"), ("nan", "NaN"), ("nulln", "NULL")]
-)
+@pytest.mark.parametrize("table, what", [("counted", "negative"), ("nan", "NaN"), ("nulln", "NULL")])
 def test_bad_count_columns(basic, table, what):
     one_line_error(plan(basic, "--count-column", "n", log=table), 4, what)
+
+
+def test_fractional_counts_are_weights(tmp_path):
+    """A sampled log scaled by its rate: fractional counts are weights (exit 4 before); the
+    figures are weights, the inputs say how many rows were fractional, and the ordered LRU
+    replay repeats rows by rounded running totals."""
+    from advisor.logreads import whole_repeats
+
+    db = make(
+        tmp_path / "f.duckdb",
+        [
+            "CREATE TABLE t AS SELECT range * 3 AS k FROM range(40)",
+            "CREATE TABLE lg AS SELECT * FROM "
+            "(VALUES (3, 2.5, 1), (6, 0.25, 2), (7, 1.0, 3), (3, 0.5, 4)) v(k, n, seq)",
+        ],
+    )
+    run = _json(plan(db, "--json", "--count-column", "n", "--keys-per-page", "4", "--order-column", "seq"))
+    assert run["lookups"] == pytest.approx(4.25) and run["hits"] == pytest.approx(3.25) and run["misses"] == 1
+    assert run["inputs"]["fractional_count_rows"] == 3
+    assert whole_repeats(np.array([2.5, 0.25, 1.0, 0.5])).tolist() == [3, 0, 1, 0]  # running 2.5, 2.75, 3.75, 4.25
+    assert whole_repeats(np.array([1.0, 4.0, 2.0])).tolist() == [1, 4, 2]
 
 
 def test_files_that_are_not_what_they_claim(basic, tmp_path):
