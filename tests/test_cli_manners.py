@@ -117,3 +117,19 @@ def test_usage_errors_are_one_line_with_exit_2(argv, words):
     assert "Input should be" not in lines[0]
     for w in words:
         assert w in lines[0]
+
+
+def test_first_run_note_when_the_kernels_are_not_compiled(tmp_path, monkeypatch, capsys):
+    """In a terminal, a run whose kernel cache is empty says why it waits (one stderr line)."""
+    from advisor import progress
+
+    monkeypatch.setenv("NUMBA_CACHE_DIR", str(tmp_path))
+    assert not progress.kernels_compiled()
+    progress.first_run_note()
+    err = capsys.readouterr().err
+    assert err.startswith("advisor: first run here: compiling") and len(err.splitlines()) == 1
+    (tmp_path / "x").mkdir()
+    (tmp_path / "x" / "within_build.build_within-30.py311.nbi").write_bytes(b"")
+    assert progress.kernels_compiled()
+    progress.first_run_note()
+    assert capsys.readouterr().err == ""
