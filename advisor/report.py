@@ -198,7 +198,7 @@ def depth_table(run: dict) -> Table:
 def export_text(run: dict) -> Text | None:
     if not run["exports"]:
         return None
-    return Text("Separator keys written to: " + ", ".join(run["exports"]), style="green")
+    return Text("Pages with every key they hold written to: " + ", ".join(run["exports"]), style="green")
 
 
 def render_run(run: dict) -> Group:

@@ -12,12 +12,13 @@ import numpy as np
 from .histogram import Histogram
 from .layout import Layout, end_pages, evaluate
 from .planner import Plan
+from .serialize import _count
 
 
 def scan_figures(plan: Plan, points: Histogram, first: np.ndarray, last: np.ndarray, weight: np.ndarray) -> dict:
     """Point lookups, range scans and both together, page reads per operation, both layouts."""
     total_scans = float(weight.sum())
-    out = {"scans": total_scans, "point_lookups": points.total}
+    out = {"scans": _count(total_scans), "point_lookups": _count(points.total)}
     for side, layout in (("uniform", plan.uniform), ("optimized", plan.recommended)):
         point = evaluate(layout, points).expected_page_reads if points.total > 0 else 0.0
         scan = float(weight @ scan_pages(layout, first, last) / total_scans) if total_scans > 0 else 0.0

@@ -84,6 +84,7 @@ def test_scan_reader_and_cli(tmp_path):
     assert res.exit_code == 0, res.stderr
     s = json.loads(res.stdout)["plans"][0]["range_scans"]
     assert s["scans"] == 1000 and s["point_lookups"] == 3000
+    assert isinstance(s["scans"], int) and isinstance(s["point_lookups"], int)  # whole counts as integers
     for side in ("uniform", "optimized"):
         f = s[side]
         assert f["combined"] == pytest.approx((f["point_lookup_reads"] * 3000 + f["scan_pages"] * 1000) / 4000)
