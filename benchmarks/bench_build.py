@@ -3,8 +3,8 @@
 Run: .venv/bin/python benchmarks/bench_build.py [--keys 1000000] [--lookups 10000000] [--limit 200000]
 Zipf 1.0 with scattered hot keys, 4 KiB pages, default budgets, both structures: `advisor build`
 (even and advised), then `advisor probe` cold (the file dropped from the OS page cache first) and
-warm, one pread per page visited. Prints counted and predicted page reads per lookup and the
-measured microseconds per lookup, side by side. Results: benchmarks/results/build-1M.txt.
+warm (the compiled reader over the file's memory map, one counted read per page visited). Prints
+counted and predicted page reads per lookup and the measured microseconds per lookup, side by side. Results: benchmarks/results/build-1M.txt.
 """
 
 from __future__ import annotations
@@ -55,7 +55,7 @@ def main() -> None:
                         f"{r['microseconds_per_lookup']:>9.1f} {r['found']:>8,}",
                         flush=True,
                     )
-    print("counted: one pread per page visited; predicted: the cost model on the same lookups and the file's pages")
+    print("counted: one read per page visited; predicted: the cost model on the same lookups and the file's pages")
 
 
 if __name__ == "__main__":
