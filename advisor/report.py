@@ -12,7 +12,7 @@ from rich.table import Table
 from rich.text import Text
 
 from .report_current import current_table
-from .report_format import BAR_WIDTH, FOOTER, FRONTIER_BAR, bar, cap_label, num, pair, pct, size_text
+from .report_format import BAR_WIDTH, FOOTER, FRONTIER_BAR, Fitted, bar, cap_label, num, pair, pct, size_text
 from .report_sections import (
     balanced_table,
     charts,
@@ -27,7 +27,7 @@ from .report_sections import (
 def inputs_panel(run: dict) -> Panel:
     t = Table.grid(padding=(0, 2))
     t.add_column(style="bold")
-    t.add_column()
+    t.add_column(overflow="fold")  # a long path folds onto the next line, never cut
     for k, v in run["inputs"].items():
         if v not in (None, "", []):
             text = f"{v:,}" if isinstance(v, int) and not isinstance(v, bool) else str(v)
@@ -235,7 +235,7 @@ def render_run(run: dict) -> Group:
     if e is not None:
         parts.append(e)
     parts.append(Panel(Text(FOOTER), style="yellow"))
-    return Group(*parts)
+    return Group(*(Fitted(p) if isinstance(p, Table) else p for p in parts))
 
 
 def render_probe(res: dict, path: str) -> Group:

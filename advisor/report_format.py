@@ -2,7 +2,13 @@
 
 from __future__ import annotations
 
+import io
+
+from rich.console import Console, ConsoleOptions, RenderResult
+from rich.table import Table
 from rich.text import Text
+
+ELLIPSIS = "\u2026"  # what Rich draws where it cuts a cell
 
 FOOTER = (
     "This is advice about storage layouts, computed from the workload you supplied. "
@@ -54,3 +60,61 @@ def bar(value: float, top: float, style: str, width: int = BAR_WIDTH) -> Text:
     full = int(cells)
     part = " ▏▎▍▌▋▊▉"[int((cells - full) * 8)] if full < width else ""
     return Text("█" * full + part.strip(), style=style)
+
+
+class Fitted:
+    """A table drawn as a table when its cells fit the width, else stacked: one block per row,
+    a "header: value" line per cell. Nothing is ever cut to an ellipsis: at 80 columns (a pipe, a
+    file) or 60, every number is shown whole."""
+
+    def __init__(self, table: Table) -> None:
+        self.table = table
+
+    def fits(self, console: Console, width: int) -> bool:
+        """Whether Rich draws the table at ``width`` without cutting a cell or header (drawn once
+        off screen and looked at: the one judge of its own column sizing)."""
+        probe = Console(width=width, file=io.StringIO(), color_system=None, legacy_windows=False)
+        probe.print(self.table)
+        return ELLIPSIS not in probe.file.getvalue()
+
+    def __rich_console__(self, console: Console, options: ConsoleOptions) -> RenderResult:
+        if self.fits(console, options.max_width):
+            yield self.table
+            return
+        bars = [i for i, col in enumerate(self.table.columns) if not str(col.header).strip()]
+        if bars:  # first give up the bar column (a picture of figures shown beside it)
+            narrower = Fitted(_without(self.table, bars))
+            if narrower.fits(console, options.max_width):
+                yield narrower.table
+                return
+        t = self.table
+        if t.title:
+            yield Text.from_markup(str(t.title), style="italic") if isinstance(t.title, str) else t.title
+        rows = len(t.columns[0]._cells) if t.columns else 0
+        for r in range(rows):
+            grid = Table.grid(padding=(0, 1))
+            grid.add_column(no_wrap=True, style="dim")
+            grid.add_column(overflow="fold")
+            for col in t.columns:
+                cell = col._cells[r]
+                text = cell if isinstance(cell, Text) else Text.from_markup(str(cell))
+                if text.plain.strip():
+                    grid.add_row(f"  {str(col.header) or '·'}:", text)
+            yield grid
+            if r + 1 < rows:
+                yield Text("")
+        if t.caption:
+            yield Text.from_markup(str(t.caption), style="dim") if isinstance(t.caption, str) else t.caption
+
+
+def _without(table: Table, drop: list[int]) -> Table:
+    """A copy of ``table`` without the columns at ``drop`` (same title, caption and rows)."""
+    out = Table(title=table.title, title_justify=table.title_justify, caption=table.caption, box=table.box)
+    out.caption_justify = table.caption_justify
+    keep = [c for i, c in enumerate(table.columns) if i not in drop]
+    for col in keep:
+        out.add_column(col.header, justify=col.justify, no_wrap=col.no_wrap, style=col.style)
+    rows = len(keep[0]._cells) if keep else 0
+    for r in range(rows):
+        out.add_row(*(col._cells[r] for col in keep), end_section=table.rows[r].end_section)
+    return out

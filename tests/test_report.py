@@ -135,3 +135,41 @@ def test_report_matches_the_golden_file(name, n, caps, width):
         path.write_text(text)
     assert text == path.read_text()
     assert max(len(line) for line in text.splitlines()) <= width and "…" not in text
+
+
+@pytest.mark.parametrize("width", [80, 60])
+def test_nothing_is_cut_at_any_width_with_every_section(tmp_path, width):
+    """Both structures, the held-out check, range scans, pools, the frontier: rendered at 80 and
+    60 columns (a pipe, a narrow terminal), no cell or header is cut to an ellipsis; a table too
+    wide is drawn without its bars, or stacked one row per block."""
+    import io
+    import json
+
+    import duckdb
+    from rich.console import Console
+    from typer.testing import CliRunner
+
+    from advisor.cli import app
+    from advisor.report import render_run
+
+    db = tmp_path / "wide.duckdb"
+    rng = np.random.default_rng(4)
+    con = duckdb.connect(str(db))
+    con.execute("CREATE TABLE t AS SELECT range * 2 AS k FROM range(3000)")
+    v = (rng.zipf(1.3, 6000) % 3100) * 2
+    hi = np.where(rng.random(6000) < 0.1, v + 40, -1)
+    con.register("p", {"k": v.astype(np.int64), "hi": hi.astype(np.int64), "seq": np.arange(6000)})
+    con.execute("CREATE TABLE lg AS SELECT k, CASE WHEN hi < 0 THEN NULL ELSE hi END AS hi, seq FROM p")
+    con.close()
+    args = ["recommend", str(db), "--table", "t", "--key", "k", "--log", "lg", "--model", "both"]
+    args += ["--order-column", "seq", "--scan-to", "hi", "--page-size", "512", "--page-size", "1024"]
+    res = CliRunner().invoke(app, [*args, "--exact-seconds", "0", "--json"])
+    assert res.exit_code == 0, res.stderr
+    run = json.loads(res.stdout)
+    console = Console(width=width, file=io.StringIO(), color_system=None)
+    console.print(render_run(run))
+    text = console.file.getvalue()
+    assert "…" not in text
+    assert max(len(line) for line in text.splitlines()) <= width
+    for figure in ("Held-out", "What more space buys", "Where lookups end"):
+        assert figure in text
