@@ -4,7 +4,8 @@ Run: .venv/bin/python benchmarks/bench_build.py [--keys 1000000] [--lookups 1000
 Zipf 1.0 with scattered hot keys, 4 KiB pages, default budgets, both structures: `advisor build`
 (even and advised), then `advisor probe` cold (the file dropped from the OS page cache first) and
 warm (the compiled reader over the file's memory map, one counted read per page visited). Prints
-counted and predicted page reads per lookup and the measured microseconds per lookup, side by side. Results: benchmarks/results/build-1M.txt.
+counted and predicted page reads per lookup and the measured microseconds per lookup, side by side.
+Results: benchmarks/results/build-1M.txt.
 """
 
 from __future__ import annotations
