@@ -75,7 +75,7 @@ def _runs(mask: np.ndarray) -> int:
 _SUBSETS = dict(n=st.integers(1, 11), c=st.integers(1, 5), heavy=st.integers(1, 12), seed=st.integers(0, 10_000))
 
 
-@settings(max_examples=20, deadline=None)
+@settings(max_examples=10, deadline=None)
 @given(**_SUBSETS)
 def test_runs_weight_upper_bounds_every_subset(n, c, heavy, seed):
     _upper_bounds_every_subset(n, c, heavy, seed)

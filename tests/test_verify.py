@@ -72,13 +72,13 @@ def test_the_committed_vectors_read_as_the_format_says(model):
 
 @pytest.fixture(scope="module")
 def built(tmp_path_factory):
-    """Invented: 3,000 keys, a skewed log; classic and B+ files of 512-byte pages."""
+    """Invented: 1,200 keys, a skewed log; classic and B+ files of 512-byte pages."""
     root = tmp_path_factory.mktemp("verify")
     db = root / "v.duckdb"
     con = duckdb.connect(str(db))
-    con.execute("CREATE TABLE t AS SELECT (range * 7 % 3000) * 2 AS k FROM range(3000)")
+    con.execute("CREATE TABLE t AS SELECT (range * 7 % 1200) * 2 AS k FROM range(1200)")
     rng = np.random.default_rng(3)
-    con.register("p", {"k": ((rng.zipf(1.3, 8000) % 3100) * 2).astype(np.int64)})
+    con.register("p", {"k": ((rng.zipf(1.3, 4000) % 1250) * 2).astype(np.int64)})
     con.execute("CREATE TABLE lg AS SELECT k FROM p")
     con.close()
     files = {}
@@ -172,4 +172,4 @@ def test_sound_files_verify(built):
         res = runner.invoke(app, ["verify", str(path), "--json"])
         assert res.exit_code == 0, res.stderr
         out = json.loads(res.stdout)
-        assert out["ok"] and out["keys"] == 3000 and out["structure"] == model
+        assert out["ok"] and out["keys"] == 1200 and out["structure"] == model
