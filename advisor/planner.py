@@ -155,9 +155,19 @@ def plan_capacity(
     uni_reads = uni_cost.expected_page_reads if fit is hist else evaluate(uni, fit).expected_page_reads
     budget = plan_budget(opts.budget, uni, hist.n, c, shape)
     dual = dp_objective = None
-    if hist.total <= 0:
+    full = None
+    if hist.total <= 0 and not budget.allows(uni):
+        # loose fills need more pages than the budget: the same split with full pages, if it fits
+        full = structure_for(opts.model, opts.fanout, 1.0, 1.0).even_split(hist.n, c)
+        full = full if budget.allows(full) else None
+    if hist.total <= 0 and (full is not None or budget.allows(uni)):
         # nothing is looked up: every layout costs 0, so keep the layout the loader would build
-        best, method, proven, fit_cost = uni, "no lookups: even split kept", True, None
+        if full is None:
+            best, method, proven, fit_cost = uni, "no lookups: even split kept", True, None
+        else:
+            best, method, proven, fit_cost = full, "no lookups: even split with full pages (the budget)", True, None
+    elif hist.total <= 0:
+        best, method, proven, dual, fit_cost = _within(shape, fit, c, uni, budget, opts, step, uni_reads)
     elif budget.max_pages is None and budget.max_height is None:
         best, method, proven, dp_objective, fit_cost = _unlimited(shape, fit, c, uni, opts, step, uni_reads)
     else:

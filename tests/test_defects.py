@@ -130,3 +130,27 @@ def test_held_out_plans_keep_the_run_options(monkeypatch):
     holdout.holdout_rows(hist, hist, [(4, None)], [0.0, 0.3], base)
     assert [o.smoothing for o in seen] == [0.0, 0.3]
     assert all(o.exact_seconds == 0.0 and o.polish_ops == 123.0 and o.recut_ops == 0.0 for o in seen)
+
+
+@pytest.mark.parametrize("model, fanout", [("btree", 0), ("bplus", 3)])
+@pytest.mark.parametrize("lookups", [True, False])
+def test_loose_fills_with_an_explicit_budget_give_advice(model, fanout, lookups):
+    """The review's reproducer: 7 keys, 3 keys per page, fill factors 0.7 / 0.3, at most 5 pages
+    and 3 levels, the near-optimal path (no exact DP): a plan within the budget, never the loose
+    even split refused as "outside its budget" (exit 8)."""
+    from advisor.budget import BudgetSpec
+
+    p = np.arange(1, 8, dtype=float) if lookups else np.zeros(7)
+    hist = Histogram(p, np.zeros(8))
+    options = PlanOptions(
+        model=model,
+        fanout=fanout,
+        exact_seconds=0,
+        budget=BudgetSpec("5", "3"),
+        leaf_fill=0.7,
+        internal_fill=0.3,
+    )
+    plan = plan_capacity(hist, 3, options=options)
+    check_layout(plan.recommended)
+    assert plan.recommended.pages <= 5 and int(plan.recommended.depths().max()) <= 3
+    assert plan.recommended_cost.expected_page_reads <= plan.uniform_cost.expected_page_reads + 1e-12
