@@ -1,30 +1,36 @@
-"""The recipes in workloads/: each turns its committed sample into a lookup log; the extracted keys
-and counts are checked against what the sample files hold (counted by hand from them), and each
-log is then planned end to end, with the database left byte-identical."""
+"""The recipes in workloads/ run against the demo database: each turns its committed sample (cut
+from the demo's own desk log, thousands of lookups) into a lookup log; the extracted keys are
+checked against the sample counted without the recipe (Python's json and re), hits against
+DuckDB's own join, and the database is left byte-identical."""
 
 from __future__ import annotations
 
 import hashlib
 import json
+import re
 from collections import Counter
 from pathlib import Path
 
 import duckdb
+import numpy as np
 import pytest
 from typer.testing import CliRunner
 
 from advisor.cli import app
-from advisor.workload import load_workload
 
 HERE = Path(__file__).resolve().parent.parent / "workloads"
 runner = CliRunner()
 
-# hand counts from the sample files
-APP_LOG = Counter({1040: 4, 2210: 2, 3333: 1, 1111: 2})  # 10 requests, one health check
-SQL_POINTS = Counter({1040: 2, 2210: 1, 3333: 1, 1111: 1, 9999: 1})  # =, =, IN (3), = (lower case)
-SQL_SCANS = [(1000, 1200), (2200, 2300)]
-ACCESS_LOG = Counter({1040: 2, 2210: 1, 7777: 1, 1111: 1, 3333: 1})  # the logo request is not a lookup
-COUNTS = Counter({1040: 80, 2210: 7, 3333: 5, 9999: 2})  # two days of Parquet counts
+
+@pytest.fixture()
+def demo(tmp_path_factory, monkeypatch):
+    """The database `advisor demo` builds (the defaults: the samples were cut from its desk log by
+    workloads/make_samples.py); the recipes read their samples relative to workloads/."""
+    from advisor.demo import build_demo
+
+    db = build_demo(tmp_path_factory.getbasetemp() / "demo")
+    monkeypatch.chdir(HERE)
+    return db
 
 
 @pytest.fixture()
@@ -60,56 +66,101 @@ def _invoke(db, *args):
 
 
 def _recommend(db, *args):
-    res = _invoke(db, "--keys-per-page", "4", "--json", "--no-frontier", *args)
+    res = _invoke(db, "--page-size", "4096", "--json", "--no-frontier", "--exact-seconds", "0", *args)
     assert res.exit_code == 0, res.stderr
     return json.loads(res.stdout)
 
 
-def test_json_lines_application_log(catalogue):
+def _app_counts() -> Counter:
+    """The app log's lookups counted by Python's json module (not the recipe)."""
+    lines = (json.loads(x) for x in (HERE / "app-log" / "requests.jsonl").read_text().splitlines())
+    return Counter(x["request"]["packet"] for x in lines if "request" in x)
+
+
+def _sql_counts() -> tuple[Counter, list[tuple[int, int]]]:
+    """The statement log's point lookups and scans counted by Python's re module (not the recipe)."""
+    points, scans = Counter(), []
+    for line in (HERE / "sql-log" / "statements.log").read_text().splitlines():
+        stmt = line[20:]
+        if not re.search(r"(?i)from\s+packets\s+where", stmt):
+            continue
+        if m := re.search(r"(?i)packet_no\s+in\s*\(([^)]*)\)", stmt):
+            points.update(int(x) for x in re.findall(r"[0-9]+", m.group(1)))
+        elif m := re.search(r"(?i)packet_no\s+between\s+([0-9]+)\s+and\s+([0-9]+)", stmt):
+            scans.append((int(m.group(1)), int(m.group(2))))
+        elif m := re.search(r"(?i)packet_no\s*=\s*([0-9]+)", stmt):
+            points[int(m.group(1))] += 1
+    return points, sorted(scans)
+
+
+def _access_counts() -> Counter:
+    out = Counter()
+    for line in (HERE / "access-log" / "access.log").read_text().splitlines():
+        url = line.split('"')[1].split()[1]
+        if m := re.match(r"^/packets/([0-9]+)", url) or re.search(r"[?&]packet=([0-9]+)", url):
+            out[int(m.group(1))] += 1
+    return out
+
+
+def _hits(db: Path, counts: Counter) -> int:
+    """Lookups of existing packets, by DuckDB's own join (the count recommend must agree with)."""
+    con = duckdb.connect(str(db), read_only=True)
+    con.register("c", {"k": np.array(list(counts), dtype=np.int64), "n": np.array(list(counts.values()))})
+    (hits,) = con.execute("SELECT coalesce(sum(n), 0) FROM c JOIN packets ON packets.packet_no = c.k").fetchone()
+    con.close()
+    return int(hits)
+
+
+def test_json_lines_application_log(demo):
     rows = _rows("app-log/lookups.sql")
-    assert Counter(r[0] for r in rows) == APP_LOG
+    assert Counter(r[0] for r in rows) == _app_counts() and len(rows) >= 2500
     times = [r[1] for r in rows]
-    assert times == sorted(times) and len(rows) == 9
-    before = _digest(catalogue)
-    run = _recommend(catalogue, "--log-sql", "app-log/lookups.sql", "--order-column", "logged_at")
-    assert run["lookups"] == 9 and run["misses"] == 0
-    assert _digest(catalogue) == before
+    assert times == sorted(times)
+    before = _digest(demo)
+    run = _recommend(demo, "--log-sql", "app-log/lookups.sql")
+    assert run["lookups"] == len(rows) and run["hits"] == _hits(demo, _app_counts()) >= 2000
+    assert run["misses"] == len(rows) - run["hits"] > 0
+    assert _digest(demo) == before
 
 
-def test_sql_statement_log_points_and_scans(catalogue):
+def test_sql_statement_log_points_and_scans(demo):
     rows = _rows("sql-log/lookups.sql")
-    assert Counter(r[0] for r in rows if r[1] is None) == SQL_POINTS
-    assert sorted((r[0], r[1]) for r in rows if r[1] is not None) == SQL_SCANS
-    before = _digest(catalogue)
-    run = _recommend(catalogue, "--log-sql", "sql-log/lookups.sql", "--scan-to", "scan_to")
-    scans = run["plans"][0]["range_scans"]
-    assert scans["scans"] == 2 and scans["point_lookups"] == 6
-    assert _digest(catalogue) == before
+    points, scans = _sql_counts()
+    assert Counter(r[0] for r in rows if r[1] is None) == points
+    assert sorted((r[0], r[1]) for r in rows if r[1] is not None) == scans
+    before = _digest(demo)
+    run = _recommend(demo, "--log-sql", "sql-log/lookups.sql", "--scan-to", "scan_to")
+    s = run["plans"][0]["range_scans"]
+    assert s["scans"] == len(scans) > 50 and s["point_lookups"] == sum(points.values()) > 2000
+    assert run["hits"] >= _hits(demo, points)  # scans that start on a packet count as hits too
+    assert _digest(demo) == before
 
 
-def test_web_access_log(catalogue):
+def test_web_access_log(demo):
     rows = _rows("access-log/lookups.sql")
-    assert Counter(r[0] for r in rows) == ACCESS_LOG
-    before = _digest(catalogue)
-    run = _recommend(catalogue, "--log-sql", "access-log/lookups.sql")
-    assert run["lookups"] == 6 and run["misses"] == 1  # 7777 is not a packet
-    assert _digest(catalogue) == before
+    counts = _access_counts()
+    assert Counter(r[0] for r in rows) == counts
+    before = _digest(demo)
+    run = _recommend(demo, "--log-sql", "access-log/lookups.sql")
+    assert run["lookups"] == sum(counts.values()) >= 2000 and run["hits"] == _hits(demo, counts)
+    assert run["misses"] > 0  # the 404s
+    assert _digest(demo) == before
 
 
-def test_pre_aggregated_parquet_counts_by_query_and_by_directory(catalogue):
-    assert Counter(dict(_rows("counts/lookups.sql"))) == COUNTS
-    before = _digest(catalogue)
-    by_query = _recommend(catalogue, "--log-sql", "counts/lookups.sql", "--count-column", "n")
-    by_dir = _recommend(catalogue, "--log", "counts", "--count-column", "n")
-    by_glob = _recommend(catalogue, "--log", "counts/*/*.parquet", "--count-column", "n")
-    for run in (by_query, by_dir, by_glob):
-        assert run["lookups"] == 94 and run["misses"] == 2
+def test_pre_aggregated_parquet_counts_by_query_and_by_directory(demo):
+    con = duckdb.connect()
+    plain = Counter(
+        dict(con.execute("SELECT packet_no, sum(n) FROM read_parquet('counts/*/*.parquet') GROUP BY 1").fetchall())
+    )
+    con.close()
+    assert Counter(dict(_rows("counts/lookups.sql"))) == plain
+    before = _digest(demo)
+    by_query = _recommend(demo, "--log-sql", "counts/lookups.sql", "--count-column", "n")
+    by_dir = _recommend(demo, "--log", "counts", "--count-column", "n")
+    for run in (by_query, by_dir):
+        assert run["lookups"] == sum(plain.values()) >= 10_000 and run["hits"] == _hits(demo, plain)
     assert by_dir["plans"][0]["optimized"] == by_query["plans"][0]["optimized"]
-    with load_workload(
-        catalogue, "packets", "packet_no", None, count_column="n", log_query=(HERE / "counts/lookups.sql").read_text()
-    ) as wl:
-        assert wl.hist.p.max() == 80 and wl.hist.total == 94
-    assert _digest(catalogue) == before
+    assert _digest(demo) == before
 
 
 def test_log_sql_that_writes_is_refused_and_changes_nothing(catalogue, tmp_path):
