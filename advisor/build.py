@@ -17,13 +17,14 @@ import numpy as np
 
 from . import keycodec
 from .bufferpool import lookup_paths
-from .errors import InputInvalid, LayoutInvalid, SettingInvalid
+from .errors import InputInvalid, SettingInvalid
 from .histogram import Histogram
 from .layout import Layout, LayoutBuilder, evaluate
 from .lru_kernel import lru_miss_count
-from .pagefile import CLASSIC, LEAF, PagedIndex, check_page, parse_page, write_index
+from .pagefile import CLASSIC, LEAF, PagedIndex, check_page, checked_pages, write_index
 from .pagefile_kernel import ABOVE, BELOW, EXACT, find_many, visit_page
 from .planner import Plan
+from .serialize import _count
 from .workload import KEYS_TABLE, Workload, load_workload, quote, table_sql
 
 
@@ -93,13 +94,7 @@ def read_layout_from_file(index: PagedIndex) -> tuple[Layout, list[bytes]]:
     """The tree the file holds, as a :class:`Layout` over key ranks, and the sorted key codes
     (read without counting page reads)."""
     h = index.header
-    pages = []
-    for p in range(h.pages):  # every page's checksum is checked here, before any search
-        raw = os.pread(index.fd, h.page_size, (p + 1) * h.page_size)
-        if len(raw) < h.page_size:
-            raise LayoutInvalid(f"{index.path}: ends before page {p + 1} of {h.pages}: the file is damaged")
-        check_page(raw, p + 1, index.path)
-        pages.append(parse_page(raw, h.fixed_width))
+    pages = checked_pages(index)  # every page's checksum is checked here, before any search
     leafy = [pg.kind in (CLASSIC, LEAF) for pg in pages]
     codes = sorted({c for pg, keep in zip(pages, leafy, strict=True) if keep for c in pg.keys})
     rank = {c: i for i, c in enumerate(codes)}
@@ -192,9 +187,9 @@ def probe_index(
         paths = lookup_paths(layout)
         misses = per(lru_miss_count(np.maximum(stops - 1, 0)[reads > 0], paths, pool_pages))
     return ProbeResult(
-        _whole(lookups),
-        _whole(float(weight[found].sum())),
-        _whole(float(weight[~found].sum())),
+        _count(lookups),
+        _count(float(weight[found].sum())),
+        _count(float(weight[~found].sum())),
         per(float((reads * weight).sum())),
         predicted,
         1e6 * seconds / rank.size if rank.size else 0.0,
@@ -203,10 +198,6 @@ def probe_index(
         misses,
         wrong,
     )
-
-
-def _whole(x: float) -> int | float:
-    return int(x) if float(x).is_integer() else float(x)
 
 
 def _ranked_log(wl: Workload, order_column: str | None, limit: int | None):

@@ -16,6 +16,8 @@ page and the JSON ``advice`` list say the same thing. A sentence answers, in thi
 
 from __future__ import annotations
 
+from .report_format import pct
+
 DISCLAIMER = "Advice only: test any layout on a copy of your data before production use."
 
 # A held-out saving below this share of the fit saving earns a warning (a round figure of this
@@ -60,10 +62,6 @@ def _size(n: int | None) -> str:
     return f"{n:,} bytes"
 
 
-def _pct(x: float) -> str:
-    return f"{100 * x:.1f}%"
-
-
 def advice_items(run: dict, pool_bytes: int | None) -> list[dict]:
     """One object per plan: ``text`` and the figures it was written from."""
     items = []
@@ -97,11 +95,11 @@ def advice_items(run: dict, pool_bytes: int | None) -> list[dict]:
             items.append(item)
             continue
         saves = (
-            f"{head} {_pct(p['saving'])} fewer page reads per lookup ({u['expected_page_reads']:.3f} -> "
+            f"{head} {pct(p['saving'])} fewer page reads per lookup ({u['expected_page_reads']:.3f} -> "
             f"{o['expected_page_reads']:.3f})"
         )
         if held_saving is not None:
-            saves += f", {_pct(held_saving)} on the latest {item['held_out_share']:.0%} of the log fitted on the rest"
+            saves += f", {pct(held_saving)} on the latest {item['held_out_share']:.0%} of the log fitted on the rest"
         size = f" ({_size(o['bytes'])})" if o.get("bytes") else ""
         saves += f"; {o['pages']:,} pages{size}, {o['height']} levels."
         if fits:
@@ -128,7 +126,7 @@ def advice_items(run: dict, pool_bytes: int | None) -> list[dict]:
             item["balanced_saving"] = 1 - b / u["expected_page_reads"] if u["expected_page_reads"] > 0 else 0.0
             item["build_in"] += (
                 f"; the balanced shape (one leaf depth, leaves cut for the pool) reads {b:.3f} per lookup, "
-                f"{_pct(item['balanced_saving'])} fewer than the even split"
+                f"{pct(item['balanced_saving'])} fewer than the even split"
             )
         lines = [saves, f"  build: {item['build_in']}.", f"  cache: {cache}."]
         if fits:
@@ -149,7 +147,7 @@ def drift_warnings(run: dict) -> list[str]:
         if fit > 0 and later < DRIFT_SHARE * fit:
             where = f"{p['page_size']:,}-byte pages" if p["page_size"] else f"c = {p['keys_per_page']}"
             out.append(
-                f"{where} ({p.get('model', 'btree')}): the saving falls from {_pct(fit)} on the earlier lookups to "
-                f"{_pct(later)} on the latest: the hot keys drift; re-plan often or expect less"
+                f"{where} ({p.get('model', 'btree')}): the saving falls from {pct(fit)} on the earlier lookups to "
+                f"{pct(later)} on the latest: the hot keys drift; re-plan often or expect less"
             )
     return out

@@ -21,20 +21,14 @@ from __future__ import annotations
 import os
 
 from .errors import LayoutInvalid
-from .pagefile import CLASSIC, INTERNAL, LEAF, PagedIndex, check_page, parse_page
+from .pagefile import CLASSIC, INTERNAL, LEAF, PagedIndex, checked_pages
 
 
 def verify_file(path: str | os.PathLike) -> dict:
     """Every check above on the file at ``path``; its figures when all pass."""
     with PagedIndex(path) as index:
         h = index.header
-        pages = {}
-        for number in range(1, h.pages + 1):
-            raw = os.pread(index.fd, h.page_size, number * h.page_size)
-            if len(raw) < h.page_size:
-                raise LayoutInvalid(f"{path}: ends before page {number} of {h.pages}")
-            check_page(raw, number, path)
-            pages[number] = parse_page(raw, h.fixed_width)
+        pages = dict(enumerate(checked_pages(index), start=1))
         if os.fstat(index.fd).st_size != (h.pages + 1) * h.page_size:
             raise LayoutInvalid(f"{path}: {os.fstat(index.fd).st_size:,} bytes, not {h.pages + 1} pages")
     walk = _Walk(pages, h.structure, path)

@@ -14,19 +14,12 @@ host may cache it, so a read is what this machine's device answers, not a bare S
 from __future__ import annotations
 
 import argparse
-import json
-import subprocess
 import sys
 import tempfile
 from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from gen import build  # noqa: E402
-
-
-def cli(*args: str) -> dict:
-    out = subprocess.run([sys.executable, "-m", "advisor", *args, "--json"], check=True, capture_output=True, text=True)
-    return json.loads(out.stdout)
+from gen import build, cli  # noqa: E402
 
 
 def main() -> None:

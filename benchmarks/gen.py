@@ -70,3 +70,13 @@ def build(directory: Path, kind: str, n: int, lookups: int, seed: int = 1) -> Pa
     con.close()
     os.replace(tmp, path)
     return path
+
+
+def cli(*args: str) -> dict:
+    """One ``advisor`` command in a fresh process, its --json output parsed."""
+    import json
+    import subprocess
+    import sys
+
+    out = subprocess.run([sys.executable, "-m", "advisor", *args, "--json"], check=True, capture_output=True, text=True)
+    return json.loads(out.stdout)
