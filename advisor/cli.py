@@ -75,6 +75,7 @@ from .pictures import save_pictures
 from .progress import steps
 from .report import render_run
 from .rowgroups.plan import EVEN_ROWS, MIN_ROWS, RowGroupOptions
+from .structures import structure_for, structure_names
 from .workload import load_workload
 
 app = typer.Typer(
@@ -257,7 +258,7 @@ def recommend_cmd(
             return
         if export_layout not in ("advised", "even", "balanced"):
             raise SettingInvalid(f"--export-layout must be advised, even or balanced, got {export_layout!r}")
-        if export_layout == "balanced" and model != "bplus":
+        if export_layout == "balanced" and not all(structure_for(m).has_balanced_shape for m in structure_names(model)):
             raise SettingInvalid("--export-layout balanced is a B+ tree: give --model bplus")
         unused = [
             (export_layout != "advised" and export is None, "--export-layout has no effect without --export"),

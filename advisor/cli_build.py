@@ -51,7 +51,7 @@ from .cli_support import check_model, guard, need_log, read_query
 from .errors import LayoutInvalid, OutputRefused, SettingInvalid, UsageError
 from .report import render_direct, render_probe
 from .rowgroups.plan import EVEN_ROWS, MIN_ROWS, RowGroupOptions
-from .structures import structure_names
+from .structures import structure_for, structure_names
 from .workload import load_workload
 
 
@@ -148,7 +148,7 @@ def build_cmd(
 
         if layout not in ("advised", "even", "balanced"):
             raise SettingInvalid(f"--layout must be advised, even or balanced, got {layout!r}")
-        if layout == "balanced" and model != "bplus":
+        if layout == "balanced" and not structure_for(model).has_balanced_shape:
             raise SettingInvalid("--layout balanced is a B+ tree: give --model bplus")
         check_model(model, [keys_per_page] if keys_per_page else None, fanout)
         if len(structure_names(model)) != 1:

@@ -17,6 +17,7 @@ page and the JSON ``advice`` list say the same thing. A sentence answers, in thi
 from __future__ import annotations
 
 from .report_format import pct
+from .structures import structure_for
 
 DISCLAIMER = "Advice only: test any layout on a copy of your data before production use."
 
@@ -25,9 +26,14 @@ DISCLAIMER = "Advice only: test any layout on a copy of your data before product
 DRIFT_SHARE = 0.5
 
 
+def _leafy(plan: dict) -> bool:
+    """Whether the plan's structure keeps every key in leaves (asked of the structure, not its name)."""
+    return structure_for(plan.get("model", "btree")).has_balanced_shape
+
+
 def where_to_build(plan: dict) -> str:
     """The engines that can hold this layout, in plain words."""
-    if plan.get("model") == "bplus":
+    if _leafy(plan):
         depths = plan["optimized"].get("leaf_depths") or []
         if len(depths) <= 1:
             return (
@@ -67,7 +73,7 @@ def advice_items(run: dict, pool_bytes: int | None) -> list[dict]:
     items = []
     for p in run["plans"]:
         o, u = p["optimized"], p["uniform"]
-        what = "B+-tree" if p.get("model") == "bplus" else "B-tree"
+        what = "B+-tree" if _leafy(p) else "B-tree"
         where = f"{p['page_size']:,}-byte pages" if p["page_size"] else f"{p['keys_per_page']} keys per page"
         held = _held_out(run, p)
         held_saving = held["held_out"]["saving"] if held else None
@@ -82,7 +88,7 @@ def advice_items(run: dict, pool_bytes: int | None) -> list[dict]:
             "held_out_saving": held_saving,
             "held_out_share": (run.get("holdout") or {}).get("fraction") if held else None,
             "build_in": where_to_build(p),
-            "one_leaf_depth": p.get("model") == "bplus" and len(o.get("leaf_depths") or []) <= 1,
+            "one_leaf_depth": _leafy(p) and len(o.get("leaf_depths") or []) <= 1,
             "index_bytes": index_bytes,
             "pool_bytes": pool_bytes,
             "fits_in_pool": fits,
@@ -121,7 +127,7 @@ def advice_items(run: dict, pool_bytes: int | None) -> list[dict]:
             )
         item["saves"], item["cache"] = saves, cache
         balanced = p.get("balanced")
-        if p.get("model") == "bplus" and not item["one_leaf_depth"] and balanced:
+        if _leafy(p) and not item["one_leaf_depth"] and balanced:
             b = balanced["expected_page_reads"]
             item["balanced_saving"] = 1 - b / u["expected_page_reads"] if u["expected_page_reads"] > 0 else 0.0
             item["build_in"] += (
